@@ -1,0 +1,142 @@
+"""Inputs and outputs of the thermal engine: plain frozen dataclasses in SI units, no validation.
+
+Everything here is already checked and converted by ``models`` before it reaches the engine: lengths in
+metres, times in seconds, temperatures in degrees Celsius (kelvin only inside the radiation term),
+conductivity in W/m/K, density in kg/m^3, specific heat in J/kg/K, heat transfer coefficients in
+W/m^2/K.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+from numpy.typing import NDArray
+
+FloatArray = NDArray[np.float64]
+ShapeKind = Literal["plate", "bar", "block", "cylinder"]
+
+
+@dataclass(frozen=True)
+class Curve:
+    """A quantity tabulated against temperature (degC): linear between points, flat beyond the ends."""
+
+    temp_c: tuple[float, ...]
+    value: tuple[float, ...]
+
+    @staticmethod
+    def constant(value: float) -> Curve:
+        return Curve((20.0,), (float(value),))
+
+    @property
+    def is_constant(self) -> bool:
+        return len(set(self.value)) <= 1
+
+    def __call__(self, temp_c: FloatArray | float) -> FloatArray:
+        return np.interp(temp_c, self.temp_c, self.value)
+
+
+@dataclass(frozen=True)
+class Material:
+    """Conductivity and specific heat may depend on temperature; density is taken as constant."""
+
+    conductivity: Curve  # W/m/K
+    density: float  # kg/m^3
+    specific_heat: Curve  # J/kg/K
+
+    @property
+    def is_constant(self) -> bool:
+        return self.conductivity.is_constant and self.specific_heat.is_constant
+
+
+@dataclass(frozen=True)
+class Shape:
+    """Part geometry by half sizes, so that the centre is the origin of every axis.
+
+    plate: (half thickness,); bar: (radius,); block: three half sizes (thickness, width, length);
+    cylinder: (radius, half length). A plate and a bar are treated as infinite in their other
+    directions: edge effects are left out, which is conservative for the core.
+    """
+
+    kind: ShapeKind
+    half_sizes_m: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class Face:
+    """How heat crosses a face during a step: convection h(T_surface) plus grey radiation."""
+
+    htc: Curve  # W/m^2/K against surface temperature in degC; a constant is a one-point curve
+    emissivity: float = 0.0
+
+    @property
+    def is_linear(self) -> bool:
+        return self.htc.is_constant and self.emissivity == 0.0
+
+
+@dataclass(frozen=True)
+class Step:
+    """One schedule step. The ambient ramps linearly from ``ambient_start_c`` when that is given.
+
+    ``second_face`` and ``second_ambient_c`` describe a plate whose lower face differs (a plate on a
+    hearth, a one-sided spray); they are only valid for plates.
+    """
+
+    duration_s: float
+    ambient_c: float
+    face: Face
+    ambient_start_c: float | None = None
+    second_face: Face | None = None
+    second_ambient_c: float | None = None
+
+    def ambient_at(self, t_s: FloatArray | float) -> FloatArray:
+        """Ambient temperature at time ``t_s`` after the step starts."""
+        start = self.ambient_c if self.ambient_start_c is None else self.ambient_start_c
+        frac = np.clip(np.asarray(t_s, dtype=float) / self.duration_s, 0.0, 1.0)
+        return np.asarray(start + (self.ambient_c - start) * frac, dtype=float)
+
+
+@dataclass(frozen=True)
+class PartThermal:
+    """One part as the engine sees it."""
+
+    shape: Shape
+    material: Material
+    initial_c: float
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """Accuracy asked of the engine.
+
+    ``series_k``: largest allowed truncation error of a series at any reported time (kelvin).
+    ``substep``: relative change allowed in a frozen coefficient (h, k, rho*c) over one substep of a
+    nonlinear step; halving it roughly quarters the error (second-order predictor-corrector).
+    """
+
+    series_k: float = 1e-3
+    substep: float = 0.02
+
+
+@dataclass
+class Trace:
+    """Computed temperatures of one part at the batch's common sample times.
+
+    ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
+    last sample of the earlier step. ``bound_k`` is the truncation bound of the series at each sample.
+    ``corner_c`` is set for blocks and short cylinders, ``second_surface_c`` for plates with two
+    different faces.
+    """
+
+    time_s: FloatArray
+    step_index: NDArray[np.int64]
+    core_c: FloatArray
+    surface_c: FloatArray
+    ambient_c: FloatArray
+    bound_k: FloatArray
+    mean_c: FloatArray
+    corner_c: FloatArray | None = None
+    second_surface_c: FloatArray | None = None
+    substeps: int = 0
+    extra: dict[str, float] = field(default_factory=dict)

@@ -125,8 +125,9 @@ class Trace:
 
     ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
     last sample of the earlier step. ``bound_k`` is the truncation bound of the series at each sample.
-    ``corner_c`` is set for blocks and short cylinders, ``second_surface_c`` for plates with two
-    different faces.
+    ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
+    faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and short
+    cylinders, ``second_surface_c`` for plates in a schedule with a second face.
     """
 
     time_s: FloatArray
@@ -136,6 +137,7 @@ class Trace:
     ambient_c: FloatArray
     bound_k: FloatArray
     mean_c: FloatArray
+    heat_in_j_m3: FloatArray
     corner_c: FloatArray | None = None
     second_surface_c: FloatArray | None = None
     substeps: int = 0

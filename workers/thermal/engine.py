@@ -1,0 +1,179 @@
+"""Entry point of the thermal engine: a batch of parts through one schedule, traces at common times.
+
+Parts are grouped by layout (plate, two-face plate, bar, block, short cylinder) and each group moves
+through the schedule in array operations. Linear steps (constant h, no radiation, constant properties)
+are one exact series step each. Other steps are split into substeps: h and properties are frozen over a
+substep at the average of their values at its two ends (predictor-corrector, second order), and a
+substep is shortened until no frozen coefficient changes by more than ``Tolerance.substep`` across it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from workers.thermal import layout
+from workers.thermal.frozen import Frozen
+from workers.thermal.group import Group, State
+from workers.thermal.spec import FloatArray, PartThermal, Step, Tolerance, Trace
+
+_MIN_FRACTION = 1e-9  # smallest substep as a fraction of the step
+
+
+def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArray, FloatArray]:
+    """Common time grid (s from the start of the first step) and the step index of each sample."""
+    times = [0.0]
+    index = [0]
+    start = 0.0
+    for k, st in enumerate(steps):
+        j = np.arange(1, samples_per_step + 1)
+        times.extend(start + st.duration_s * j / samples_per_step)
+        index.extend([k] * samples_per_step)
+        start += st.duration_s
+    return np.array(times), np.array(index, dtype=np.int64)
+
+
+def _check(parts: Sequence[PartThermal], steps: Sequence[Step], samples_per_step: int) -> None:
+    if not steps:
+        raise ValueError("the schedule has no steps")
+    if samples_per_step < 1:
+        raise ValueError("samples_per_step must be at least 1")
+    for st in steps:
+        if not st.duration_s > 0:
+            raise ValueError("every step needs a positive duration")
+    for p in parts:
+        if any(not s > 0 for s in p.shape.half_sizes_m):
+            raise ValueError("every part size must be positive")
+
+
+def simulate(
+    parts: Sequence[PartThermal],
+    steps: Sequence[Step],
+    *,
+    samples_per_step: int = 120,
+    tol: Tolerance | None = None,
+) -> list[Trace]:
+    """Core, surface (and corner) temperatures of every part through every step."""
+    tol = tol or Tolerance()
+    _check(parts, steps, samples_per_step)
+    time_s, step_index = sample_times(steps, samples_per_step)
+    two_face = any(st.second_face is not None for st in steps)
+    groups: dict[layout.Layout, list[int]] = {}
+    for i, p in enumerate(parts):
+        groups.setdefault(layout.layout_of(p, two_face), []).append(i)
+    traces: list[Trace | None] = [None] * len(parts)
+    ambient = np.concatenate([[steps[0].ambient_at(0.0)]] + [
+        st.ambient_at(st.duration_s * np.arange(1, samples_per_step + 1) / samples_per_step) for st in steps
+    ])
+    for kind, idx in groups.items():
+        out = _run(Group(kind, [parts[i] for i in idx], tol), steps, samples_per_step, tol)
+        for j, i in enumerate(idx):
+            traces[i] = Trace(
+                time_s=time_s,
+                step_index=step_index,
+                core_c=out["core"][j],
+                surface_c=out["surface"][j],
+                ambient_c=ambient,
+                bound_k=out["bound"][j],
+                mean_c=out["mean"][j],
+                heat_in_j_m3=out["heat"][j],
+                corner_c=out["corner"][j] if "corner" in out else None,
+                second_surface_c=out["second"][j] if "second" in out else None,
+                substeps=int(out["substeps"][0, 0]),
+            )
+    return [t for t in traces if t is not None]
+
+
+def _span(g: Group, steps: Sequence[Step], upto: int) -> FloatArray:
+    """Largest temperature difference any profile can hold at the start of step ``upto`` (per part)."""
+    temps = [g.initial]
+    for st in steps[: upto + 1]:
+        for v in (st.ambient_c, st.ambient_start_c, st.second_ambient_c):
+            if v is not None:
+                temps.append(np.full(g.P, v))
+    stack = np.stack(temps)
+    return np.asarray(stack.max(axis=0) - stack.min(axis=0), dtype=float)
+
+
+def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, FloatArray]:
+    first = min(st.duration_s for st in steps) / n
+    g.choose_modes(first, float(_span(g, steps, len(steps) - 1).max()))
+    total = 1 + n * len(steps)
+    out: dict[str, FloatArray] = {}
+    state = State(None, None, g.initial.copy(), np.zeros(g.P))
+    heat_acc = np.zeros(g.P)
+    substeps = 0
+    col = 1
+
+    def store(vals: dict[str, FloatArray], heat: FloatArray, cols: slice) -> None:
+        for name, v in vals.items():
+            if name.startswith("face"):
+                continue
+            out.setdefault(name, np.empty((g.P, total)))[:, cols] = v
+        out.setdefault("heat", np.empty((g.P, total)))[:, cols] = heat
+
+    for name in ("core", "surface", "mean"):
+        out[name] = np.empty((g.P, total))
+        out[name][:, 0] = g.initial
+    if g.points.corner is not None:
+        out["corner"] = np.empty((g.P, total))
+        out["corner"][:, 0] = g.initial
+    if g.points.second is not None:
+        out["second"] = np.empty((g.P, total))
+        out["second"][:, 0] = g.initial
+    out["heat"] = np.zeros((g.P, total))
+    out["bound"] = np.zeros((g.P, total))
+
+    for k, st in enumerate(steps):
+        specs = g.face_specs(st)
+        linear = g.mats.constant and all(f.is_linear for f, _ in specs)
+        dur = st.duration_s
+        offsets = dur * np.arange(1, n + 1) / n
+        out["bound"][:, col : col + n] = g.bound(offsets, _span(g, steps, k))
+        face_c, mean_c = _face_and_mean(g, state)
+        t = 0.0
+        dt = dur if linear else dur / n
+        while t < dur * (1 - 1e-12):
+            t1 = min(dur, t + dt)
+            if dur - t1 < _MIN_FRACTION * dur:
+                t1 = dur
+            f0 = g.freeze(specs, face_c, mean_c, t)
+            sub = g.prepare(state, f0, specs, t)
+            if not linear:
+                vals1, _ = g.evaluate(sub, np.array([t1 - t]))
+                face1 = np.stack([vals1[f"face{i}"][:, 0] for i in range(len(g.faces))], axis=1)
+                mean1 = vals1["mean"][:, 0]
+                f1 = g.freeze(specs, face1, mean1, t1)
+                change = f0.change(f1)
+                if change > tol.substep and (t1 - t) > _MIN_FRACTION * dur * 10:
+                    dt = (t1 - t) * max(0.2, 0.8 * tol.substep / change)
+                    continue
+                avg = Frozen(0.5 * (f0.h + f1.h), 0.5 * (f0.k + f1.k), g.mats.secant_capacity(mean_c, mean1))
+                sub = g.prepare(state, avg, specs, t)
+                dt = (t1 - t) * min(2.0, 0.8 * tol.substep / max(change, 1e-12))
+            inside = (offsets > t + 1e-12 * dur) & (offsets <= t1 + 1e-12 * dur)
+            if inside.any():
+                cols = np.nonzero(inside)[0] + col
+                vals, heat = g.evaluate(sub, offsets[inside] - t)
+                store(vals, heat + heat_acc[:, None], slice(cols[0], cols[-1] + 1))
+            _, heat_end = g.evaluate(sub, np.array([t1 - t]))
+            heat_acc = heat_acc + heat_end[:, 0]
+            state = g.advance(sub, t1 - t)
+            face_c, mean_c = _face_and_mean(g, state)
+            substeps += 1
+            t = t1
+        col += n
+    out["substeps"] = np.full((1, 1), float(substeps))
+    return out
+
+
+def _face_and_mean(g: Group, state: State) -> tuple[FloatArray, FloatArray]:
+    """Face-average and mean temperatures of a state (the uniform start before any step)."""
+    if state.A is None or state.modes is None:
+        return np.repeat(g.initial[:, None], len(g.faces), axis=1), g.initial.copy()
+    names, W, off, _ = g.functionals(state.modes)
+    A = state.A.reshape(g.P, -1)
+    vals = np.einsum("pfM,pM->pf", W, A) + state.sA[:, None] + state.sB[:, None] * off
+    faces = np.stack([vals[:, names.index(f"face{i}")] for i in range(len(g.faces))], axis=1)
+    return faces, vals[:, names.index("mean")]

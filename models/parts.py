@@ -1,0 +1,143 @@
+"""Parts of a batch file: shape and sizes, material (catalog name or inline), start temperature, targets."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Annotated, Any, Literal
+
+from pydantic import BeforeValidator, Field
+
+from models import catalog, limits, units
+from models.base import RuleProblem, SpecModel, as_raw
+from models.fields import (
+    ConductivityValue,
+    DensityValue,
+    LengthText,
+    PropertyTable,
+    SpecificHeatValue,
+    TemperatureText,
+    Text,
+    check_material_name,
+)
+from models.targets import TargetSpec
+
+ShapeName = Literal["plate", "bar", "block", "cylinder"]
+SIZE_FIELDS = ("thickness", "width", "length", "diameter")
+SIZES: dict[str, tuple[str, ...]] = {
+    "plate": ("thickness",),
+    "bar": ("diameter",),
+    "block": ("thickness", "width", "length"),
+    "cylinder": ("diameter", "length"),
+}
+_EXAMPLE_SIZE = {"thickness": "'50 mm'", "width": "'400 mm'", "length": "'1 m'", "diameter": "'80 mm'"}
+_WITH_CORNER = ("block", "cylinder")
+
+
+def _table(value: str | PropertyTable, kind: units.Kind) -> catalog.Table:
+    source = "given in the batch file"
+    if isinstance(value, str):
+        return catalog.Table.constant(units.parse_quantity(value, kind), kind.si_unit, source)
+    temps = tuple(units.parse_temperature(t) for t, _ in value)
+    values = tuple(units.parse_quantity(v, kind) for _, v in value)
+    return catalog.Table(temps, values, kind.si_unit, (source,) * len(value))
+
+
+class InlineMaterialSpec(SpecModel):
+    """A steel given in the file: each property a unit string or a table [[temperature, value], ...]."""
+
+    conductivity: ConductivityValue
+    density: DensityValue
+    specific_heat: SpecificHeatValue
+
+    def to_data(self, name: str = "inline") -> catalog.MaterialData:
+        return catalog.MaterialData(
+            name=name,
+            description="given in the batch file",
+            density=_table(self.density, units.DENSITY),
+            conductivity=_table(self.conductivity, units.CONDUCTIVITY),
+            specific_heat=_table(self.specific_heat, units.SPECIFIC_HEAT),
+        )
+
+
+def _inline_or_name(value: object) -> object:
+    checked = check_material_name(value)
+    return InlineMaterialSpec.model_validate(checked) if isinstance(checked, dict) else checked
+
+
+def _targets_limit(value: object) -> object:
+    if isinstance(value, list) and len(value) > limits.MAX_TARGETS_PER_PART:
+        raise ValueError(f"a part holds at most {limits.MAX_TARGETS_PER_PART} targets, got {len(value)}")
+    return value
+
+
+class PartSpec(SpecModel):
+    """One part of the batch. Sizes by shape: plate thickness; bar diameter; block thickness, width and
+    length; cylinder diameter and length."""
+
+    id: Text
+    shape: ShapeName
+    thickness: LengthText | None = None
+    width: LengthText | None = None
+    length: LengthText | None = None
+    diameter: LengthText | None = None
+    material: Annotated[str | InlineMaterialSpec, BeforeValidator(_inline_or_name)]
+    initial: TemperatureText
+    targets: Annotated[list[TargetSpec], BeforeValidator(_targets_limit)] = Field(default_factory=list)
+
+    @classmethod
+    def _rules(cls, raw: Mapping[str, Any]) -> list[RuleProblem]:
+        shape = raw.get("shape")
+        if not isinstance(shape, str) or shape not in SIZES:
+            return []  # the shape field itself reports the problem
+        needed = SIZES[shape]
+        problems: list[RuleProblem] = [
+            ((f,), f"required for a {shape}, e.g. {_EXAMPLE_SIZE[f]}") for f in needed if raw.get(f) is None
+        ]
+        problems += [
+            ((f,), f"a {shape} takes {' and '.join(needed)} only; remove {f}")
+            for f in SIZE_FIELDS
+            if f not in needed and raw.get(f) is not None
+        ]
+        targets = raw.get("targets")
+        if shape not in _WITH_CORNER and isinstance(targets, list):
+            problems += [
+                (("targets", i, "at"), f"corner is reported for blocks and cylinders only, not for a {shape}")
+                for i, t in enumerate(targets)
+                if (raw_target := as_raw(t)) is not None and raw_target.get("at") == "corner"
+            ]
+        return problems
+
+    def _length_m(self, text: str | None) -> float | None:
+        return None if text is None else units.parse_length(text)
+
+    @property
+    def thickness_m(self) -> float | None:
+        return self._length_m(self.thickness)
+
+    @property
+    def width_m(self) -> float | None:
+        return self._length_m(self.width)
+
+    @property
+    def length_m(self) -> float | None:
+        return self._length_m(self.length)
+
+    @property
+    def diameter_m(self) -> float | None:
+        return self._length_m(self.diameter)
+
+    @property
+    def half_sizes_m(self) -> tuple[float, ...]:
+        """Half sizes in the engine's order: plate (a,), bar (R,), block (a, b, c), cylinder (R, L/2)."""
+        return tuple(units.parse_length(getattr(self, f)) / 2.0 for f in SIZES[self.shape])
+
+    @property
+    def initial_c(self) -> float:
+        return units.parse_temperature(self.initial)
+
+    @property
+    def material_data(self) -> catalog.MaterialData:
+        """Properties against temperature, from the catalog or from the inline values."""
+        if isinstance(self.material, str):
+            return catalog.get_material(self.material)
+        return self.material.to_data()

@@ -1,0 +1,101 @@
+"""Schedule steps of a batch file: duration, ambient (optionally ramped) and how heat crosses the faces."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any
+
+from models import catalog, units
+from models.base import RuleProblem, SpecModel
+from models.fields import DurationText, Emissivity, HtcText, MediumName, TemperatureText, Text
+
+
+def _one_of_htc_medium(raw: Mapping[str, Any]) -> list[RuleProblem]:
+    has_htc, has_medium = raw.get("htc") is not None, raw.get("medium") is not None
+    if has_htc and has_medium:
+        return [(("medium",), "give either htc or medium, not both")]
+    if not (has_htc or has_medium):
+        return [(("htc",), "required: give htc (e.g. '150 W/m^2/K') or medium (a catalog name)")]
+    return []
+
+
+class _Face:
+    """SI views shared by the step and its lower face: a constant ``htc`` or a catalog ``medium``."""
+
+    if TYPE_CHECKING:  # declared by the models themselves, in file order
+        htc: str | None
+        medium: str | None
+        emissivity: float | None
+
+    @property
+    def medium_data(self) -> catalog.Medium | None:
+        return None if self.medium is None else catalog.get_medium(self.medium)
+
+    @property
+    def htc_w_m2k(self) -> float | None:
+        """The constant h when ``htc`` is given; None when a medium sets h(T_surface)."""
+        return None if self.htc is None else units.parse_htc(self.htc)
+
+    @property
+    def htc_table(self) -> catalog.Table:
+        """h against surface temperature in degC: a one-row table for a constant ``htc``."""
+        medium = self.medium_data
+        if medium is not None:
+            return medium.htc
+        return catalog.Table.constant(units.parse_htc(self.htc or ""), "W/m^2/K", "given in the batch file")
+
+    @property
+    def emissivity_value(self) -> float:
+        """The given emissivity, else the medium's default, else 0 (no radiation)."""
+        if self.emissivity is not None:
+            return self.emissivity
+        medium = self.medium_data
+        return medium.emissivity if medium is not None and medium.emissivity is not None else 0.0
+
+
+class LowerFaceSpec(_Face, SpecModel):
+    """A plate's lower face when it differs from the upper one (on a hearth, a one-sided spray)."""
+
+    htc: HtcText | None = None
+    medium: MediumName | None = None
+    ambient: TemperatureText | None = None
+    emissivity: Emissivity | None = None
+
+    @classmethod
+    def _rules(cls, raw: Mapping[str, Any]) -> list[RuleProblem]:
+        return _one_of_htc_medium(raw)
+
+    @property
+    def ambient_c(self) -> float | None:
+        """The lower face's own ambient; None means the step's ambient."""
+        return None if self.ambient is None else units.parse_temperature(self.ambient)
+
+
+class StepSpec(_Face, SpecModel):
+    """One step of the schedule every part of the batch runs."""
+
+    name: Text
+    duration: DurationText
+    ambient: TemperatureText
+    ambient_start: TemperatureText | None = None
+    htc: HtcText | None = None
+    medium: MediumName | None = None
+    emissivity: Emissivity | None = None
+    lower_face: LowerFaceSpec | None = None
+
+    @classmethod
+    def _rules(cls, raw: Mapping[str, Any]) -> list[RuleProblem]:
+        return _one_of_htc_medium(raw)
+
+    @property
+    def duration_s(self) -> float:
+        return units.parse_time(self.duration)
+
+    @property
+    def ambient_c(self) -> float:
+        """Furnace or bath temperature; the end of the ramp when ``ambient_start`` is given."""
+        return units.parse_temperature(self.ambient)
+
+    @property
+    def ambient_start_c(self) -> float | None:
+        return None if self.ambient_start is None else units.parse_temperature(self.ambient_start)

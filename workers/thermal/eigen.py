@@ -42,6 +42,7 @@ def _newton_bracketed(
     flo, _ = f(lo)
     x = np.clip(x0, lo, hi)
     scale = np.maximum(np.abs(hi), 1.0)
+    active = np.ones(x.shape, dtype=bool)
     for _ in range(_ITER):
         fx, dfx = f(x)
         # shrink the bracket with the sign of f(x)
@@ -52,11 +53,14 @@ def _newton_bracketed(
         with np.errstate(divide="ignore", invalid="ignore"):
             step = fx / dfx
         xn = x - step
-        bad = ~np.isfinite(xn) | (xn <= lo) | (xn >= hi)
-        xn = np.where(bad, 0.5 * (lo + hi), xn)
-        done = (np.abs(xn - x) <= 4e-16 * scale) | (fx == 0.0)
-        x = np.where(fx == 0.0, x, xn)
-        if np.all(done):
+        inside = np.isfinite(xn) & (xn >= lo) & (xn <= hi)
+        # a step that leaves the bracket bisects, unless it is only rounding at a converged root
+        tiny = np.abs(step) <= 1e-13 * scale
+        xn = np.where(inside, xn, np.where(tiny, x, 0.5 * (lo + hi)))
+        converged = (np.abs(xn - x) <= 1e-14 * scale) | (fx == 0.0)
+        x = np.where(active & (fx != 0.0), xn, x)
+        active &= ~converged
+        if not active.any():
             break
     return x
 

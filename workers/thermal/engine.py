@@ -12,6 +12,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import numpy as np
+from numpy.typing import NDArray
 
 from workers.thermal import layout
 from workers.thermal.frozen import Frozen
@@ -21,7 +22,7 @@ from workers.thermal.spec import FloatArray, PartThermal, Step, Tolerance, Trace
 _MIN_FRACTION = 1e-9  # smallest substep as a fraction of the step
 
 
-def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArray, FloatArray]:
+def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArray, NDArray[np.int64]]:
     """Common time grid (s from the start of the first step) and the step index of each sample."""
     times = [0.0]
     index = [0]
@@ -59,14 +60,18 @@ def simulate(
     _check(parts, steps, samples_per_step)
     time_s, step_index = sample_times(steps, samples_per_step)
     two_face = any(st.second_face is not None for st in steps)
-    groups: dict[layout.Layout, list[int]] = {}
+    groups: dict[tuple[layout.Layout, int], list[int]] = {}
     for i, p in enumerate(parts):
-        groups.setdefault(layout.layout_of(p, two_face), []).append(i)
+        groups.setdefault((layout.layout_of(p, two_face), _speed_class(p)), []).append(i)
     traces: list[Trace | None] = [None] * len(parts)
-    ambient = np.concatenate([[steps[0].ambient_at(0.0)]] + [
-        st.ambient_at(st.duration_s * np.arange(1, samples_per_step + 1) / samples_per_step) for st in steps
-    ])
-    for kind, idx in groups.items():
+    ambient = np.concatenate(
+        [[steps[0].ambient_at(0.0)]]
+        + [
+            st.ambient_at(st.duration_s * np.arange(1, samples_per_step + 1) / samples_per_step)
+            for st in steps
+        ]
+    )
+    for (kind, _), idx in sorted(groups.items()):
         out = _run(Group(kind, [parts[i] for i in idx], tol), steps, samples_per_step, tol)
         for j, i in enumerate(idx):
             traces[i] = Trace(
@@ -85,6 +90,14 @@ def simulate(
     return [t for t in traces if t is not None]
 
 
+def _speed_class(p: PartThermal) -> int:
+    """Parts whose thermal time constants are within a factor of 4 share substeps (and their cost)."""
+    m = p.material
+    alpha = float(m.conductivity(20.0)) / (m.density * float(m.specific_heat(20.0)))
+    tc = min(p.shape.half_sizes_m) ** 2 / alpha
+    return int(np.floor(np.log(max(tc, 1e-9)) / np.log(4.0)))
+
+
 def _span(g: Group, steps: Sequence[Step], upto: int) -> FloatArray:
     """Largest temperature difference any profile can hold at the start of step ``upto`` (per part)."""
     temps = [g.initial]
@@ -97,8 +110,6 @@ def _span(g: Group, steps: Sequence[Step], upto: int) -> FloatArray:
 
 
 def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, FloatArray]:
-    first = min(st.duration_s for st in steps) / n
-    g.choose_modes(first, float(_span(g, steps, len(steps) - 1).max()))
     total = 1 + n * len(steps)
     out: dict[str, FloatArray] = {}
     state = State(None, None, g.initial.copy(), np.zeros(g.P))
@@ -130,7 +141,8 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
         linear = g.mats.constant and all(f.is_linear for f, _ in specs)
         dur = st.duration_s
         offsets = dur * np.arange(1, n + 1) / n
-        out["bound"][:, col : col + n] = g.bound(offsets, _span(g, steps, k))
+        span = _span(g, steps, k)
+        rate = _ramp_rate(st)
         face_c, mean_c = _face_and_mean(g, state)
         t = 0.0
         dt = dur if linear else dur / n
@@ -138,6 +150,8 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
             t1 = min(dur, t + dt)
             if dur - t1 < _MIN_FRACTION * dur:
                 t1 = dur
+            # fewer modes are needed as the step goes on and the high ones die out
+            g.choose_modes(max(t, offsets[0]), float(span.max()), rate)
             f0 = g.freeze(specs, face_c, mean_c, t)
             sub = g.prepare(state, f0, specs, t)
             if not linear:
@@ -156,6 +170,7 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
             if inside.any():
                 cols = np.nonzero(inside)[0] + col
                 vals, heat = g.evaluate(sub, offsets[inside] - t)
+                out["bound"][:, cols[0] : cols[-1] + 1] = g.bound(offsets[inside], span, rate)
                 store(vals, heat + heat_acc[:, None], slice(cols[0], cols[-1] + 1))
             _, heat_end = g.evaluate(sub, np.array([t1 - t]))
             heat_acc = heat_acc + heat_end[:, 0]
@@ -166,6 +181,13 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
         col += n
     out["substeps"] = np.full((1, 1), float(substeps))
     return out
+
+
+def _ramp_rate(st: Step) -> float:
+    """Ambient ramp rate of a step in K/s (0 when it holds)."""
+    if st.ambient_start_c is None:
+        return 0.0
+    return (st.ambient_c - st.ambient_start_c) / st.duration_s
 
 
 def _face_and_mean(g: Group, state: State) -> tuple[FloatArray, FloatArray]:

@@ -22,7 +22,7 @@ KELVIN = 273.15
 
 @dataclass(frozen=True)
 class Frozen:
-    """(P, F) face coefficients in W/m^2/K and (P,) conductivity W/m/K and volumetric heat capacity J/m^3/K."""
+    """Face coefficients h (P, F) W/m^2/K; conductivity k (P,) W/m/K; heat capacity rc (P,) J/m^3/K."""
 
     h: FloatArray
     k: FloatArray
@@ -56,7 +56,7 @@ def enthalpy(curve: Curve, temp_c: FloatArray) -> FloatArray:
     vp = np.asarray(curve.value, dtype=float)
     t = np.asarray(temp_c, dtype=float)
     if tp.size == 1:
-        return vp[0] * (t - tp[0])
+        return np.asarray(vp[0] * (t - tp[0]), dtype=float)
     seg = np.concatenate(([0.0], np.cumsum(0.5 * (vp[1:] + vp[:-1]) * np.diff(tp))))
     i = np.clip(np.searchsorted(tp, t, side="right") - 1, 0, tp.size - 2)
     tc = np.clip(t, tp[0], tp[-1])
@@ -65,7 +65,7 @@ def enthalpy(curve: Curve, temp_c: FloatArray) -> FloatArray:
     inside = seg[i] + vp[i] * dt + 0.5 * slope * dt * dt
     below = np.minimum(t - tp[0], 0.0) * vp[0]
     above = np.maximum(t - tp[-1], 0.0) * vp[-1]
-    return inside + below + above
+    return np.asarray(inside + below + above, dtype=float)
 
 
 class MaterialSet:

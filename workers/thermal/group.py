@@ -87,54 +87,76 @@ class Group:
         self.n_modes: tuple[int, ...] = ()
 
     # ----------------------------------------------------------------- set-up
-    def choose_modes(self, first_sample_s: float, span_k: float) -> None:
+    def choose_modes(self, tau_s: float, span_k: float, rate_k_s: float) -> None:
+        """Mode counts whose dropped tail is below the tolerance ``tau_s`` after a step start."""
         d = len(self.kinds)
-        budget = self.tol.series_k / max(span_k, 1e-12) / d / 3.0 ** (d - 1)
+        budget = self.tol.series_k / d / 3.0 ** (d - 1)
         n = []
         for i, kind in enumerate(self.kinds):
-            decay = float(np.min(self.alpha_min * first_sample_s / self.lengths[:, i] ** 2))
-            n.append(layout.choose_modes(kind, d, decay, budget))
+            ell2 = self.lengths[:, i] ** 2
+            decay = float(np.min(self.alpha_min * tau_s / ell2))
+            forced = float(np.max(abs(rate_k_s) * ell2 / self.alpha_min))
+            n.append(layout.choose_modes(kind, d, decay, span_k, forced, budget))
         self.n_modes = tuple(n)
 
-    def bound(self, tau_s: FloatArray, span_k: FloatArray) -> FloatArray:
-        """Truncation bound (P, m) at times ``tau_s`` after a step start, for profiles of span ``span_k``."""
+    def bound(self, tau_s: FloatArray, span_k: FloatArray, rate_k_s: float) -> FloatArray:
+        """Truncation bound (P, m) at times ``tau_s`` after a step start, for profiles of span ``span_k``
+        and an ambient ramping at ``rate_k_s``."""
         total = np.zeros((self.P, tau_s.size))
         heads = []
         tails = []
         for i, kind in enumerate(self.kinds):
-            decay = self.alpha_min[:, None] * tau_s[None, :] / self.lengths[:, i : i + 1] ** 2
+            ell2 = self.lengths[:, i : i + 1] ** 2
+            decay = self.alpha_min[:, None] * tau_s[None, :] / ell2
             h, t = layout.tail_sums(kind, self.n_modes[i], decay)
+            lam = layout.lower_roots(kind, self.n_modes[i] + layout._TAIL)
+            lag = (
+                layout.forced_terms(kind, lam)[self.n_modes[i] :].sum()
+                * abs(rate_k_s)
+                * ell2
+                / self.alpha_min[:, None]
+            )
             heads.append(h)
-            tails.append(t)
+            tails.append(span_k[:, None] * t + lag)
         for i in range(len(self.kinds)):
             term = tails[i].copy()
             for j in range(len(self.kinds)):
                 if j != i:
-                    term = term * (heads[j] + tails[j])
+                    term = term * (heads[j] + tails[j] / np.maximum(span_k[:, None], 1e-12))
             total = total + term
-        return span_k[:, None] * total
+        return total
 
     # ------------------------------------------------------------- freezing
     def face_specs(self, step: Step) -> list[tuple[Face, Callable[[float], float]]]:
         """Face law and ambient (as a function of step time) of every face of the layout."""
+        def main(t: float) -> float:
+            return float(step.ambient_at(t))
+
+        def second(t: float) -> float:
+            return main(t) if step.second_ambient_c is None else step.second_ambient_c
+
         out: list[tuple[Face, Callable[[float], float]]] = []
         for f in self.faces:
             if f.second and step.second_face is not None:
-                second_ambient = step.second_ambient_c
-                if second_ambient is None:
-                    out.append((step.second_face, lambda t, s=step: float(s.ambient_at(t))))
-                else:
-                    out.append((step.second_face, lambda t, v=second_ambient: v))
+                out.append((step.second_face, second))
             else:
-                out.append((step.face, lambda t, s=step: float(s.ambient_at(t))))
+                out.append((step.face, main))
         return out
 
     def freeze(
-        self, specs: Sequence[tuple[Face, Callable[[float], float]]], face_c: FloatArray, mean_c: FloatArray,
+        self,
+        specs: Sequence[tuple[Face, Callable[[float], float]]],
+        face_c: FloatArray,
+        mean_c: FloatArray,
         t: float,
     ) -> Frozen:
-        h = np.stack([face_coefficient(face, face_c[:, i], np.full(self.P, amb(t))) for i, (face, amb) in
-                      enumerate(specs)], axis=1)
+        h = np.stack(
+            [
+                face_coefficient(face, face_c[:, i], np.full(self.P, amb(t)))
+                for i, (face, amb) in enumerate(specs)
+            ],
+            axis=1,
+        )
         return Frozen(h, self.mats.conductivity(mean_c), self.mats.heat_capacity(mean_c))
 
     # ------------------------------------------------------------- substeps
@@ -142,7 +164,7 @@ class Group:
         out: list[modes.Modes] = []
         for i, kind in enumerate(self.kinds):
             n = self.n_modes[i]
-            g = guess[i].z if guess is not None and guess[i].z.shape == (self.P, n) else None
+            g = guess[i].z[:, :n] if guess is not None and guess[i].z.shape[1] >= n else None
             ell = self.lengths[:, i]
             if kind == "two":
                 with np.errstate(invalid="ignore"):
@@ -176,7 +198,11 @@ class Group:
         return np.where(insulated, T1, sA), np.where(insulated, 0.0, sB)
 
     def prepare(
-        self, state: State, fr: Frozen, specs: Sequence[tuple[Face, Callable[[float], float]]], t: float,
+        self,
+        state: State,
+        fr: Frozen,
+        specs: Sequence[tuple[Face, Callable[[float], float]]],
+        t: float,
     ) -> Sub:
         """Re-expand the state on the modes of ``fr`` at step time ``t``."""
         md = self._make_modes(fr, state.modes)
@@ -192,18 +218,21 @@ class Group:
             xi = modes.xi_coefficients(md[0])  # type: ignore[arg-type]
             A0 = A0 + (state.sB - sB)[:, None] * xi
         if state.A is not None and state.modes is not None:
-            A0 = A0 + tensor.apply_axes([modes.transfer(n, o) for n, o in zip(md, state.modes, strict=True)],
-                                        state.A)
+            A0 = A0 + tensor.apply_axes(
+                [modes.transfer(n, o) for n, o in zip(md, state.modes, strict=True)], state.A
+            )
             exact_mean = exact_mean + self._mean(state.modes, state.A)
         # The dropped modes of the new expansion hold the rest of the mean; by the first reported time
         # they have decayed (the mode count sees to it), so their heat has crossed the faces.
         heat_jump = -fr.rc * (exact_mean - self._mean(md, A0))
         alpha = fr.k / fr.rc
-        K = tensor.add_axes([alpha[:, None] * m.z**2 / self.lengths[:, i : i + 1] ** 2 for i, m in enumerate(md)])
+        K = tensor.add_axes(
+            [alpha[:, None] * m.z**2 / self.lengths[:, i : i + 1] ** 2 for i, m in enumerate(md)]
+        )
         dsA, dsB = sA1 - sA, sB1 - sB
         S = dsA.reshape((-1,) + (1,) * len(md)) * one
         if self.kind == "plate2":
-            S = S + dsB[:, None] * modes.xi_coefficients(md[0])  # type: ignore[arg-type]
+            S = S + dsB[:, None] * modes.xi_coefficients(md[0])  # type: ignore[arg-type,operator]
         return Sub(md, A0, K, S, sA, sB, dsA, dsB, fr.k, heat_jump)
 
     def _mean(self, md: list[modes.Modes], A: FloatArray) -> FloatArray:
@@ -239,11 +268,14 @@ class Group:
             off.append(np.full(self.P, f.xi))
             svecs = list(means)
             svecs[f.axis] = md[f.axis].slope(np.full((self.P, 1), f.xi))
-            slopes.append(tensor.outer(svecs).reshape(self.P, -1) * (f.geo * f.sign / self.lengths[:, f.axis:f.axis + 1] ** 2))
+            slopes.append(
+                tensor.outer(svecs).reshape(self.P, -1)
+                * (f.geo * f.sign / self.lengths[:, f.axis : f.axis + 1] ** 2)
+            )
         return names, np.stack(w, axis=1), np.stack(off, axis=1), np.stack(slopes, axis=1)
 
     def evaluate(self, sub: Sub, dt: FloatArray) -> tuple[dict[str, FloatArray], FloatArray]:
-        """Read-outs (name -> (P, m)) and heat in per volume (P, m) at times ``dt`` after the substep start."""
+        """Read-outs (name -> (P, m)) and heat in per volume (P, m), ``dt`` after the substep start."""
         names, W, off, G = self.functionals(sub.modes)
         A = sub.A0.reshape(self.P, -1)
         K = sub.K.reshape(self.P, -1)
@@ -266,8 +298,11 @@ class Group:
                 "pgM,ptM->pgt", GS, tensor.psi(x) * (t * t)[None, :, None]
             )
             heat[:, c0 : c0 + step] = sub.k[:, None] * integ.sum(axis=1) + sub.heat_jump[:, None]
-        s_line = (sub.sA[:, None, None] + sub.sB[:, None, None] * off[:, :, None]
-                  + (sub.dsA[:, None, None] + sub.dsB[:, None, None] * off[:, :, None]) * dt[None, None, :])
+        s_line = (
+            sub.sA[:, None, None]
+            + sub.sB[:, None, None] * off[:, :, None]
+            + (sub.dsA[:, None, None] + sub.dsB[:, None, None] * off[:, :, None]) * dt[None, None, :]
+        )
         vals = vals + s_line
         return {n: vals[:, i, :] for i, n in enumerate(names)}, heat
 

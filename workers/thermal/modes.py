@@ -138,7 +138,7 @@ class BesselModes:
         safe = np.where(close, 1.0, den)
         off = (b * j0a * j1b - a * j1a * j0b) / safe
         diag = 0.5 * (j0a**2 + j1a**2)
-        return np.where(close, diag, off)
+        return np.asarray(np.where(close, diag, off), dtype=float)
 
     def norm2(self) -> FloatArray:
         z = self.z

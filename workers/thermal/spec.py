@@ -34,7 +34,7 @@ class Curve:
         return len(set(self.value)) <= 1
 
     def __call__(self, temp_c: FloatArray | float) -> FloatArray:
-        return np.interp(temp_c, self.temp_c, self.value)
+        return np.asarray(np.interp(temp_c, self.temp_c, self.value), dtype=float)
 
 
 @dataclass(frozen=True)
@@ -115,7 +115,7 @@ class Tolerance:
     nonlinear step; halving it roughly quarters the error (second-order predictor-corrector).
     """
 
-    series_k: float = 1e-3
+    series_k: float = 1e-2
     substep: float = 0.02
 
 

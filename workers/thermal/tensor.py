@@ -20,14 +20,14 @@ def outer(vecs: Sequence[FloatArray]) -> FloatArray:
     """Tensor product of per-axis vectors (P, N_i) -> (P, N_1, ..., N_d)."""
     d = len(vecs)
     spec = ",".join(f"p{_AX[i]}" for i in range(d)) + "->p" + _AX[:d]
-    return np.einsum(spec, *vecs)
+    return np.asarray(np.einsum(spec, *vecs), dtype=float)
 
 
 def apply_axes(mats: Sequence[FloatArray], A: FloatArray) -> FloatArray:
     """Apply a (P, N_new, N_old) matrix along each axis of A."""
     d = len(mats)
     spec = ",".join(f"p{_NEW[i]}{_AX[i]}" for i in range(d)) + f",p{_AX[:d]}->p{_NEW[:d]}"
-    return np.einsum(spec, *mats, A, optimize=True)
+    return np.asarray(np.einsum(spec, *mats, A, optimize=True), dtype=float)
 
 
 def add_axes(vals: Sequence[FloatArray]) -> FloatArray:

@@ -113,6 +113,8 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
     total = 1 + n * len(steps)
     out: dict[str, FloatArray] = {}
     state = State(None, None, g.initial.copy(), np.zeros(g.P))
+    face_c = np.repeat(g.initial[:, None], len(g.faces), axis=1)
+    mean_c = g.initial.copy()
     heat_acc = np.zeros(g.P)
     substeps = 0
     col = 1
@@ -143,39 +145,40 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
         offsets = dur * np.arange(1, n + 1) / n
         span = _span(g, steps, k)
         rate = _ramp_rate(st)
-        face_c, mean_c = _face_and_mean(g, state)
+        alpha = np.full(g.P, np.inf)
         t = 0.0
         dt = dur if linear else dur / n
         while t < dur * (1 - 1e-12):
             t1 = min(dur, t + dt)
             if dur - t1 < _MIN_FRACTION * dur:
                 t1 = dur
-            # fewer modes are needed as the step goes on and the high ones die out
-            g.choose_modes(max(t, offsets[0]), float(span.max()), rate)
             f0 = g.freeze(specs, face_c, mean_c, t)
+            alpha = np.minimum(alpha, f0.k / f0.rc)
+            # fewer modes are needed as the step goes on and the high ones die out
+            g.choose_modes(max(t, offsets[0]), float(span.max()), rate, alpha)
             sub = g.prepare(state, f0, specs, t)
             if not linear:
-                vals1, _ = g.evaluate(sub, np.array([t1 - t]))
-                face1 = np.stack([vals1[f"face{i}"][:, 0] for i in range(len(g.faces))], axis=1)
-                mean1 = vals1["mean"][:, 0]
+                face1, mean1 = _face_and_mean(g, g.evaluate(sub, np.array([t1 - t]))[0])
                 f1 = g.freeze(specs, face1, mean1, t1)
                 change = f0.change(f1)
                 if change > tol.substep and (t1 - t) > _MIN_FRACTION * dur * 10:
                     dt = (t1 - t) * max(0.2, 0.8 * tol.substep / change)
                     continue
                 avg = Frozen(0.5 * (f0.h + f1.h), 0.5 * (f0.k + f1.k), g.mats.secant_capacity(mean_c, mean1))
+                alpha = np.minimum(alpha, avg.k / avg.rc)
                 sub = g.prepare(state, avg, specs, t)
                 dt = (t1 - t) * min(2.0, 0.8 * tol.substep / max(change, 1e-12))
             inside = (offsets > t + 1e-12 * dur) & (offsets <= t1 + 1e-12 * dur)
+            times = np.append(offsets[inside], t1) - t
+            vals, heat = g.evaluate(sub, times)
             if inside.any():
                 cols = np.nonzero(inside)[0] + col
-                vals, heat = g.evaluate(sub, offsets[inside] - t)
-                out["bound"][:, cols[0] : cols[-1] + 1] = g.bound(offsets[inside], span, rate)
-                store(vals, heat + heat_acc[:, None], slice(cols[0], cols[-1] + 1))
-            _, heat_end = g.evaluate(sub, np.array([t1 - t]))
-            heat_acc = heat_acc + heat_end[:, 0]
+                sl = slice(cols[0], cols[-1] + 1)
+                store({nm: v[:, :-1] for nm, v in vals.items()}, heat[:, :-1] + heat_acc[:, None], sl)
+                out["bound"][:, sl] = g.bound(offsets[inside], span, rate, alpha)
+            heat_acc = heat_acc + heat[:, -1]
+            face_c, mean_c = _face_and_mean(g, {nm: v[:, -1:] for nm, v in vals.items()})
             state = g.advance(sub, t1 - t)
-            face_c, mean_c = _face_and_mean(g, state)
             substeps += 1
             t = t1
         col += n
@@ -190,12 +193,7 @@ def _ramp_rate(st: Step) -> float:
     return (st.ambient_c - st.ambient_start_c) / st.duration_s
 
 
-def _face_and_mean(g: Group, state: State) -> tuple[FloatArray, FloatArray]:
-    """Face-average and mean temperatures of a state (the uniform start before any step)."""
-    if state.A is None or state.modes is None:
-        return np.repeat(g.initial[:, None], len(g.faces), axis=1), g.initial.copy()
-    names, W, off, _ = g.functionals(state.modes)
-    A = state.A.reshape(g.P, -1)
-    vals = np.einsum("pfM,pM->pf", W, A) + state.sA[:, None] + state.sB[:, None] * off
-    faces = np.stack([vals[:, names.index(f"face{i}")] for i in range(len(g.faces))], axis=1)
-    return faces, vals[:, names.index("mean")]
+def _face_and_mean(g: Group, vals: dict[str, FloatArray]) -> tuple[FloatArray, FloatArray]:
+    """Face-average and mean temperatures from a one-time read-out."""
+    faces = np.stack([vals[f"face{i}"][:, 0] for i in range(len(g.faces))], axis=1)
+    return faces, vals["mean"][:, 0]

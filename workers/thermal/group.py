@@ -68,6 +68,7 @@ class Sub:
     dsB: FloatArray
     k: FloatArray
     heat_jump: FloatArray  # heat per volume carried by the dropped modes, delivered at once
+    fn: tuple[list[str], FloatArray, FloatArray, FloatArray]  # read-out weights, see Group.functionals
 
 
 class Group:
@@ -87,19 +88,22 @@ class Group:
         self.n_modes: tuple[int, ...] = ()
 
     # ----------------------------------------------------------------- set-up
-    def choose_modes(self, tau_s: float, span_k: float, rate_k_s: float) -> None:
-        """Mode counts whose dropped tail is below the tolerance ``tau_s`` after a step start."""
+    def choose_modes(self, tau_s: float, span_k: float, rate_k_s: float, alpha: FloatArray) -> None:
+        """Mode counts whose first dropped term is below the tolerance ``tau_s`` after a step start.
+
+        ``alpha`` is the smallest diffusivity of each part since the step started (m^2/s).
+        """
         d = len(self.kinds)
         budget = self.tol.series_k / d / 3.0 ** (d - 1)
         n = []
         for i, kind in enumerate(self.kinds):
             ell2 = self.lengths[:, i] ** 2
-            decay = float(np.min(self.alpha_min * tau_s / ell2))
-            forced = float(np.max(abs(rate_k_s) * ell2 / self.alpha_min))
+            decay = float(np.min(alpha * tau_s / ell2))
+            forced = float(np.max(abs(rate_k_s) * ell2 / alpha))
             n.append(layout.choose_modes(kind, d, decay, span_k, forced, budget))
         self.n_modes = tuple(n)
 
-    def bound(self, tau_s: FloatArray, span_k: FloatArray, rate_k_s: float) -> FloatArray:
+    def bound(self, tau_s: FloatArray, span_k: FloatArray, rate_k_s: float, alpha: FloatArray) -> FloatArray:
         """Truncation bound (P, m) at times ``tau_s`` after a step start, for profiles of span ``span_k``
         and an ambient ramping at ``rate_k_s``."""
         total = np.zeros((self.P, tau_s.size))
@@ -107,14 +111,14 @@ class Group:
         tails = []
         for i, kind in enumerate(self.kinds):
             ell2 = self.lengths[:, i : i + 1] ** 2
-            decay = self.alpha_min[:, None] * tau_s[None, :] / ell2
+            decay = alpha[:, None] * tau_s[None, :] / ell2
             h, t = layout.tail_sums(kind, self.n_modes[i], decay)
             lam = layout.lower_roots(kind, self.n_modes[i] + layout._TAIL)
             lag = (
                 layout.forced_terms(kind, lam)[self.n_modes[i] :].sum()
                 * abs(rate_k_s)
                 * ell2
-                / self.alpha_min[:, None]
+                / alpha[:, None]
             )
             heads.append(h)
             tails.append(span_k[:, None] * t + lag)
@@ -233,7 +237,7 @@ class Group:
         S = dsA.reshape((-1,) + (1,) * len(md)) * one
         if self.kind == "plate2":
             S = S + dsB[:, None] * modes.xi_coefficients(md[0])  # type: ignore[arg-type,operator]
-        return Sub(md, A0, K, S, sA, sB, dsA, dsB, fr.k, heat_jump)
+        return Sub(md, A0, K, S, sA, sB, dsA, dsB, fr.k, heat_jump, self.functionals(md))
 
     def _mean(self, md: list[modes.Modes], A: FloatArray) -> FloatArray:
         w = tensor.outer([modes.mean_weights(m) for m in md]).reshape(self.P, -1)
@@ -276,7 +280,7 @@ class Group:
 
     def evaluate(self, sub: Sub, dt: FloatArray) -> tuple[dict[str, FloatArray], FloatArray]:
         """Read-outs (name -> (P, m)) and heat in per volume (P, m), ``dt`` after the substep start."""
-        names, W, off, G = self.functionals(sub.modes)
+        names, W, off, G = sub.fn
         A = sub.A0.reshape(self.P, -1)
         K = sub.K.reshape(self.P, -1)
         S = sub.S.reshape(self.P, -1)

@@ -155,7 +155,7 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
             f0 = g.freeze(specs, face_c, mean_c, t)
             alpha = np.minimum(alpha, f0.k / f0.rc)
             # fewer modes are needed as the step goes on and the high ones die out
-            g.choose_modes(max(t, offsets[0]), float(span.max()), rate, alpha)
+            g.choose_modes(max(t, offsets[0]), float(span.max()), rate, alpha, None if linear else t1 - t)
             sub = g.prepare(state, f0, specs, t)
             if not linear:
                 face1, mean1 = _face_and_mean(g, g.evaluate(sub, np.array([t1 - t]))[0])

@@ -88,10 +88,15 @@ class Group:
         self.n_modes: tuple[int, ...] = ()
 
     # ----------------------------------------------------------------- set-up
-    def choose_modes(self, tau_s: float, span_k: float, rate_k_s: float, alpha: FloatArray) -> None:
+    def choose_modes(
+        self, tau_s: float, span_k: float, rate_k_s: float, alpha: FloatArray, substep_s: float | None = None
+    ) -> None:
         """Mode counts whose first dropped term is below the tolerance ``tau_s`` after a step start.
 
-        ``alpha`` is the smallest diffusivity of each part since the step started (m^2/s).
+        ``alpha`` is the smallest diffusivity of each part since the step started (m^2/s). Inside a
+        nonlinear step every substep re-expands the profile on modes for new coefficients; the part the
+        new series drops (about ``Tolerance.substep`` of the span) must die out within the substep
+        ``substep_s``, or the losses add up over many substeps.
         """
         d = len(self.kinds)
         budget = self.tol.series_k / d / 3.0 ** (d - 1)
@@ -100,7 +105,12 @@ class Group:
             ell2 = self.lengths[:, i] ** 2
             decay = float(np.min(alpha * tau_s / ell2))
             forced = float(np.max(abs(rate_k_s) * ell2 / alpha))
-            n.append(layout.choose_modes(kind, d, decay, span_k, forced, budget))
+            count = layout.choose_modes(kind, d, decay, span_k, forced, budget)
+            if substep_s is not None:
+                decay_sub = float(np.min(alpha * substep_s / ell2))
+                mismatch = span_k * self.tol.substep
+                count = max(count, layout.choose_modes(kind, d, decay_sub, mismatch, 0.0, budget))
+            n.append(count)
         self.n_modes = tuple(n)
 
     def bound(self, tau_s: FloatArray, span_k: FloatArray, rate_k_s: float, alpha: FloatArray) -> FloatArray:

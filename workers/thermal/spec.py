@@ -116,7 +116,7 @@ class Tolerance:
     """
 
     series_k: float = 1e-2
-    substep: float = 0.02
+    substep: float = 0.01
 
 
 @dataclass

@@ -1,0 +1,216 @@
+"""The ``soakline`` command line: run a batch file on this machine, suggest a soak, run the demo.
+
+Exit status (the contract): 0 every part passes, 1 some part is flagged (``suggest``: no duration
+clears the step's targets), 2 the input is invalid (every problem on its own line with its field path).
+The service commands (serve, worker, ...) are mounted from ``scheduler.service_cli`` when installed.
+"""
+
+from __future__ import annotations
+
+import json
+from importlib import resources
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+from rich.console import Console
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.table import Table
+from rich.text import Text
+
+from models import BatchSpec, SpecError, load_batch_file
+from workers.jobs import CHUNK_PARTS, NOTICE, run_batch, suggest
+
+app = typer.Typer(
+    name="soakline",
+    help="Predict core and surface temperatures of steel parts through a furnace batch and check targets.",
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    add_completion=False,
+)
+
+WIDE = 132  # width when the output is not a terminal (a file, a pipe, a test): tables stay unwrapped
+
+
+def _console(stderr: bool = False) -> Console:
+    probe = Console(stderr=stderr)
+    return Console(stderr=stderr, highlight=False, width=None if probe.is_terminal else WIDE)
+
+
+out = _console()
+err = _console(stderr=True)
+
+
+@app.callback()
+def _start() -> None:
+    """Predict core and surface temperatures of steel parts through a furnace batch and check targets."""
+    global out, err  # consoles follow the streams of this invocation (a terminal, a pipe, a test runner)
+    out, err = _console(), _console(stderr=True)
+
+
+PROGRESS_FROM_PARTS = 50
+DEMO_JSON = "soakline-demo.json"
+
+FileArg = Annotated[Path, typer.Argument(help="Batch file (YAML, or JSON when it ends in .json).")]
+JsonOpt = Annotated[Path | None, typer.Option("--json", help="Where to write the result JSON.")]
+
+
+# -- shared pieces ------------------------------------------------------------------------------------
+
+
+def _invalid(exc: SpecError, what: str) -> typer.Exit:
+    err.print(f"[bold]Cannot use {what}:[/bold]")
+    for problem in exc.problems:
+        err.print(f"  {problem}", markup=False)
+    err.print("Nothing was computed. Fix the above and run again.")
+    return typer.Exit(2)
+
+
+def _load(file: Path) -> BatchSpec:
+    try:
+        return load_batch_file(file)
+    except SpecError as exc:
+        raise _invalid(exc, str(file)) from None
+
+
+def _write_json(result: dict[str, Any], path: Path) -> None:
+    try:
+        path.write_text(json.dumps(result, separators=(",", ":")) + "\n", encoding="utf-8")
+    except OSError as exc:
+        err.print(f"cannot write {path}: {exc.strerror or exc}", markup=False)
+        raise typer.Exit(2) from None
+
+
+def _notice() -> None:
+    out.print(Text(f"Note: {NOTICE}", style="italic"))
+
+
+def _compute(batch: BatchSpec) -> dict[str, Any]:
+    if len(batch.parts) < PROGRESS_FROM_PARTS:
+        with out.status(f"Computing {len(batch.parts)} parts ..."):
+            return run_batch(batch)
+    columns = (TextColumn("Computing parts"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
+    with Progress(*columns, console=out, transient=True) as bar:
+        task = bar.add_task("parts", total=len(batch.parts))
+
+        def report(done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total)
+
+        # chunks of about a tenth of the batch: the bar moves, and each engine call still covers many parts
+        return run_batch(batch, report, chunk=min(CHUNK_PARTS, max(25, len(batch.parts) // 10)))
+
+
+def _result_table(result: dict[str, Any]) -> Table:
+    table = Table(title=f"Batch: {result['batch']}", title_justify="left", show_lines=False)
+    columns = ("Part", "Shape and size", "Steel", "Step", "Target", "Predicted", "Result", "Margin")
+    for name in columns:
+        table.add_column(
+            name, justify="right" if name == "Margin" else "left", no_wrap=name in ("Part", "Result")
+        )
+    for part in result["parts"]:
+        checks = part["checks"] or [None]
+        for i, check in enumerate(checks):
+            cells = [part["id"], part["size"], part["material"]] if i == 0 else ["", "", ""]
+            last = i == len(checks) - 1
+            if check is None:
+                table.add_row(*cells, "-", "no targets", "", "", "", end_section=last)
+                continue
+            passed = bool(check["passed"])
+            table.add_row(
+                *cells,
+                check["step"],
+                f"{check['at']} {check['required']}",
+                check["achieved"],
+                Text("pass", style="green") if passed else Text("FLAG", style="bold red"),
+                Text(check["margin"], style="" if passed else "red"),
+                end_section=last,
+            )
+    return table
+
+
+def _report(result: dict[str, Any], json_path: Path) -> int:
+    out.print(_result_table(result))
+    flagged = [p for p in result["parts"] if p["flagged"]]
+    for part in flagged:
+        for flag in part["flags"]:
+            out.print(f"[bold red]FLAG[/bold red] {part['id']} ({flag['step']}): ", end="")
+            out.print(flag["message"], markup=False)
+    total = len(result["parts"])
+    summary = f"{len(flagged)} of {total} parts flagged" if flagged else f"all {total} parts pass"
+    out.print(f"\n{summary}. Result JSON: {json_path}")
+    _notice()
+    return 1 if flagged else 0
+
+
+# -- commands -----------------------------------------------------------------------------------------
+
+
+@app.command()
+def run(file: FileArg, json_out: JsonOpt = None) -> None:
+    """Compute every part of a batch file and check its targets (no servers needed)."""
+    batch = _load(file)
+    result = _compute(batch)
+    path = json_out or Path(f"{file.stem}-result.json")
+    _write_json(result, path)
+    raise typer.Exit(_report(result, path))
+
+
+@app.command("suggest")
+def suggest_command(
+    file: FileArg,
+    step: Annotated[str, typer.Option("--step", help="Name of the schedule step to shorten or lengthen.")],
+    json_out: JsonOpt = None,
+) -> None:
+    """Find the shortest duration of one step at which every part passes every target of that step."""
+    batch = _load(file)
+    try:
+        with out.status(f"Searching the duration of '{step}' ..."):
+            answer = suggest(batch, step)
+    except SpecError as exc:
+        raise _invalid(exc, "--step") from None
+    current = batch.step(step).duration
+    if answer["duration_s"] is None:
+        out.print(f"No duration of '{step}' clears every target of that step.")
+        out.print(answer["reason"], markup=False)
+    else:
+        out.print(
+            f"Shortest '{step}': [bold]{answer['duration']}[/bold] ({answer['duration_s']:.0f} s; "
+            f"the file has {current}). Limiting part: {answer['limiting_part'] or '-'}."
+        )
+        out.print(f"Searched with {answer['simulations']} runs of the batch, to about 1 % or 1 min.")
+    if json_out is not None:
+        _write_json(answer, json_out)
+        out.print(f"Result JSON: {json_out}")
+    _notice()
+    raise typer.Exit(0 if answer["duration_s"] is not None else 1)
+
+
+def demo_path() -> Path:
+    """The bundled demo batch file."""
+    return Path(str(resources.files("scheduler").joinpath("demo", "demo.yaml")))
+
+
+@app.command()
+def demo(json_out: JsonOpt = None) -> None:
+    """Run the bundled demo batch and show its table."""
+    file = demo_path()
+    out.print(f"Demo batch file: {file}")
+    batch = _load(file)
+    result = _compute(batch)
+    path = json_out or Path(DEMO_JSON)
+    _write_json(result, path)
+    _report(result, path)
+    raise typer.Exit(0)
+
+
+def main() -> None:
+    """Console entry point (``soakline``)."""
+    app()
+
+
+try:
+    from scheduler.service_cli import register
+except ImportError:
+    pass
+else:
+    register(app)

@@ -1,0 +1,1 @@
+"""The soakline command line: exit codes, messages, the JSON it writes, the demo."""

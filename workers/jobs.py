@@ -1,0 +1,405 @@
+"""The job code the CLI and the service workers share: run a batch, run one part, suggest a soak.
+
+Everything here takes a validated ``BatchSpec`` and returns plain JSON-ready dicts in the shape of the
+result contract (DESIGN.md section 4), extended with ``checks`` (every target, pass or fail), part
+descriptions, step boundaries and the safety notice. No database, no queue: callers store the result.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any
+
+import numpy as np
+
+from models import (
+    BatchSpec,
+    PartSpec,
+    Problem,
+    SpecError,
+    TargetSpec,
+    format_path,
+    parse_time,
+    with_step_durations,
+)
+from models import limits as _limits
+from workers.convert import engine_inputs, to_part, to_step
+from workers.targets import Check, Target, evaluate, format_duration
+from workers.thermal import PartThermal, Step, Tolerance, Trace, simulate
+
+__all__ = [
+    "CHUNK_PARTS",
+    "NOTICE",
+    "describe_part",
+    "part_checks",
+    "run_batch",
+    "run_part",
+    "suggest",
+    "with_durations",
+]
+
+NOTICE = (
+    "Predictions are planning estimates. Furnace and quench work follows the site's procedures, the "
+    "applicable heat-treatment and pyrometry specifications and the judgement of qualified metallurgists; "
+    "a passing prediction never replaces load thermocouples or hardness checks."
+)
+
+CHUNK_PARTS = 200
+SAMPLES_PER_STEP = 120
+_TEMP_DECIMALS = 2  # 0.01 K
+_TIME_DECIMALS = 1  # 0.1 s
+
+Progress = Callable[[int, int], None]
+
+
+# -- describing parts and targets ---------------------------------------------------------------------
+
+
+def describe_part(part: PartSpec) -> str:
+    """Shape and size as the file gave them: "plate 50 mm", "bar dia 80 mm", "block 50 x 200 x 400 mm"."""
+    if part.shape == "plate":
+        return f"plate {part.thickness}"
+    if part.shape == "bar":
+        return f"bar dia {part.diameter}"
+    if part.shape == "block":
+        return f"block {part.thickness} x {part.width} x {part.length}"
+    return f"cylinder dia {part.diameter} x {part.length}"
+
+
+def _material_name(part: PartSpec) -> str:
+    return part.material if isinstance(part.material, str) else "inline"
+
+
+def to_target(spec: TargetSpec, batch: BatchSpec) -> Target:
+    """A file target in SI, with its step's position in the schedule."""
+    names = [s.name for s in batch.schedule]
+    kind = spec.kind.value
+    limit: float | None
+    if kind == "max_difference":
+        limit = spec.max_difference_k
+    elif kind.startswith("temper_parameter"):
+        limit = spec.parameter
+    else:
+        limit = spec.limit_c
+    assert limit is not None  # the models guarantee the kind's value
+    time_s = spec.for_s if kind == "hold_above" else spec.within_s
+    return Target(
+        step=spec.step,
+        step_index=names.index(spec.step),
+        kind=kind,  # type: ignore[arg-type]  # TargetKind values are the Kind literals
+        at=spec.point,
+        limit=limit,
+        time_s=time_s,
+        constant=spec.constant_value,
+    )
+
+
+def part_checks(batch: BatchSpec, part: PartSpec, trace: Trace, step: str | None = None) -> list[Check]:
+    """Every target of ``part`` (only those of ``step`` when given) checked against its trace."""
+    return [evaluate(to_target(t, batch), trace) for t in part.targets if step is None or t.step == step]
+
+
+# -- results ------------------------------------------------------------------------------------------
+
+
+def _floats(values: np.ndarray[Any, Any], decimals: int) -> list[float | None]:
+    rounded = np.round(np.asarray(values, dtype=float), decimals)
+    return [float(v) if math.isfinite(v) else None for v in rounded.tolist()]
+
+
+def _bounds(values: np.ndarray[Any, Any]) -> list[float | None]:
+    """Truncation bounds to 2 significant digits: they span many decades."""
+    return [float(f"{v:.2g}") if math.isfinite(v) else None for v in np.asarray(values, float).tolist()]
+
+
+def _trace_json(trace: Trace) -> dict[str, list[float | None]]:
+    out = {
+        "time_s": _floats(trace.time_s, _TIME_DECIMALS),
+        "core_c": _floats(trace.core_c, _TEMP_DECIMALS),
+        "surface_c": _floats(trace.surface_c, _TEMP_DECIMALS),
+        "ambient_c": _floats(trace.ambient_c, _TEMP_DECIMALS),
+    }
+    if trace.corner_c is not None:
+        out["corner_c"] = _floats(trace.corner_c, _TEMP_DECIMALS)
+    if trace.second_surface_c is not None:
+        out["second_surface_c"] = _floats(trace.second_surface_c, _TEMP_DECIMALS)
+    out["bound_k"] = _bounds(trace.bound_k)
+    return out
+
+
+def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace) -> dict[str, Any]:
+    checks = part_checks(batch, part, trace)
+    flags = [c.flag_dict() for c in checks if not c.passed]
+    return {
+        "id": part.id,
+        "flagged": bool(flags),
+        "flags": flags,
+        "checks": [c.as_dict() for c in checks],
+        "shape": part.shape,
+        "size": describe_part(part),
+        "material": _material_name(part),
+        "trace": _trace_json(trace),
+    }
+
+
+def _steps_json(batch: BatchSpec) -> list[dict[str, Any]]:
+    out, start = [], 0.0
+    for s in batch.schedule:
+        out.append({"name": s.name, "start_s": round(start, 1), "end_s": round(start + s.duration_s, 1)})
+        start += s.duration_s
+    return out
+
+
+def _simulate(parts: Sequence[PartThermal], steps: Sequence[Step], tol: Tolerance | None) -> list[Trace]:
+    return simulate(parts, steps, samples_per_step=SAMPLES_PER_STEP, tol=tol)
+
+
+def run_batch(
+    batch: BatchSpec,
+    progress: Progress | None = None,
+    *,
+    tol: Tolerance | None = None,
+    chunk: int = CHUNK_PARTS,
+) -> dict[str, Any]:
+    """The whole result of a batch: every part's checks, flags and trace, and the safety notice.
+
+    Parts go to the engine ``chunk`` at a time (one vectorised call per chunk); ``progress(done,
+    total)`` is called after each chunk and once at the start with ``done = 0``.
+    """
+    parts, steps = engine_inputs(batch)
+    total = len(parts)
+    if progress is not None:
+        progress(0, total)
+    traces: list[Trace] = []
+    for first in range(0, total, max(1, chunk)):
+        traces += _simulate(parts[first : first + chunk], steps, tol)
+        if progress is not None:
+            progress(len(traces), total)
+    return {
+        "batch": batch.batch,
+        "parts": [_part_entry(batch, p, tr) for p, tr in zip(batch.parts, traces, strict=True)],
+        "steps": _steps_json(batch),
+        "notice": NOTICE,
+    }
+
+
+def _find_part(batch: BatchSpec, part_id: str) -> PartSpec:
+    for p in batch.parts:
+        if p.id == part_id:
+            return p
+    raise SpecError.single(f"no part '{part_id}' in batch '{batch.batch}'", "part_id")
+
+
+def run_part(batch: BatchSpec, part_id: str, *, tol: Tolerance | None = None) -> dict[str, Any]:
+    """One part's entry of the result (same shape as in ``run_batch``), computed on its own."""
+    part = _find_part(batch, part_id)
+    trace = _simulate([to_part(part)], [to_step(s) for s in batch.schedule], tol)[0]
+    return _part_entry(batch, part, trace)
+
+
+# -- reruns with new durations ------------------------------------------------------------------------
+
+
+def with_durations(batch: BatchSpec, durations: Mapping[str, str]) -> BatchSpec:
+    """A new, re-validated spec with the named steps' durations replaced ({"heat": "4 h"}).
+
+    Problems are reported at ``durations.STEP``: unknown steps, values that are not positive times.
+    """
+    names = [s.name for s in batch.schedule]
+    problems = [
+        Problem(f"durations.{name}", f"no step named '{name}' in the schedule; steps: {', '.join(names)}")
+        for name in durations
+        if name not in names
+    ]
+    for name, text in durations.items():
+        if name not in names:
+            continue
+        try:
+            seconds = parse_time(text)
+        except ValueError as exc:
+            problems.append(Problem(f"durations.{name}", str(exc)))
+            continue
+        if not seconds > 0.0:
+            problems.append(Problem(f"durations.{name}", f"must be more than zero, got '{text}'"))
+    if problems:
+        raise SpecError(problems)
+    try:
+        return with_step_durations(batch, dict(durations))
+    except SpecError as exc:
+        raise SpecError([_rename(p, names) for p in exc.problems]) from None
+
+
+def _rename(problem: Problem, names: list[str]) -> Problem:
+    """``schedule[1].duration`` -> ``durations.soak``; other paths stay as they are."""
+    for i, name in enumerate(names):
+        if problem.path == format_path(("schedule", i, "duration")):
+            return Problem(f"durations.{name}", problem.message)
+    return problem
+
+
+# -- the shortest duration of a step ------------------------------------------------------------------
+
+# A longer step helps a hold and a minimum temper; it helps a fall only while the step is shorter than
+# the time allowed (the crossing itself does not move). Every other miss at one duration is a miss at
+# every longer one, so the search stops at once instead of doubling to the limit.
+_HELPED_BY_LONGER = ("hold_above", "temper_parameter_min")
+_MIN_STEP_S = 60.0
+
+
+class _Search:
+    """Evaluates one step's targets at trial durations, re-simulating only what they depend on."""
+
+    def __init__(self, batch: BatchSpec, step: str, tol: Tolerance | None) -> None:
+        self.batch = batch
+        self.step = step
+        self.k = [s.name for s in batch.schedule].index(step)
+        self.parts = [p for p in batch.parts if any(t.step == step for t in p.targets)]
+        self.thermal = [to_part(p) for p in self.parts]
+        self.steps = [to_step(s) for s in batch.schedule[: self.k + 1]]  # later steps cannot matter
+        self.tol = tol
+        self.runs = 0
+
+    def failures(self, duration_s: float) -> list[tuple[str, Check]]:
+        return [(pid, c) for pid, c in self.checks(duration_s) if not c.passed]
+
+    def helped(self, pid: str, check: Check, duration_s: float) -> bool:
+        """Whether a longer step can clear this miss."""
+        if check.target in _HELPED_BY_LONGER:
+            return True
+        if check.target != "fall_below":
+            return False
+        part = next(p for p in self.parts if p.id == pid)
+        return any(
+            t.step == self.step
+            and t.kind == "fall_below"
+            and t.at == check.at
+            and duration_s < (t.within_s or 0.0)
+            for t in part.targets
+        )
+
+    def checks(self, duration_s: float) -> list[tuple[str, Check]]:
+        steps = list(self.steps)
+        last = steps[-1]
+        steps[-1] = Step(
+            duration_s=duration_s,
+            ambient_c=last.ambient_c,
+            face=last.face,
+            ambient_start_c=last.ambient_start_c,
+            second_face=last.second_face,
+            second_ambient_c=last.second_ambient_c,
+        )
+        self.runs += 1
+        traces = _simulate(self.thermal, steps, self.tol)
+        return [
+            (p.id, c)
+            for p, tr in zip(self.parts, traces, strict=True)
+            for c in part_checks(self.batch, p, tr, self.step)
+        ]
+
+
+def _worst(failed: list[tuple[str, Check]]) -> tuple[str, Check]:
+    """The miss to name: a hold short by the most time first, else the first miss."""
+    holds = [f for f in failed if f[1].target == "hold_above"]
+    return min(holds, key=lambda f: f[1].margin_value) if holds else failed[0]
+
+
+def _answer(
+    step: str, duration_s: float | None, limiting: str | None, reason: str | None, runs: int
+) -> dict[str, Any]:
+    return {
+        "step": step,
+        "duration_s": None if duration_s is None else round(duration_s, 1),
+        "duration": None if duration_s is None else format_duration(duration_s),
+        "limiting_part": limiting,
+        "reason": reason,
+        "simulations": runs,
+        "notice": NOTICE,
+    }
+
+
+def suggest(batch: BatchSpec, step: str, *, tol: Tolerance | None = None) -> dict[str, Any]:
+    """The shortest duration of ``step`` for which every part passes every target of that step.
+
+    Brackets by doubling from the file's duration (or bisects below it), then bisects to about 1 % or
+    1 min, re-simulating all parts with targets in that step (vectorised) at each trial. When no
+    duration up to the product limit clears the targets, ``duration_s`` is None and ``reason`` says why.
+    """
+    names = [s.name for s in batch.schedule]
+    if step not in names:
+        raise SpecError.single(f"no step named '{step}' in the schedule; steps: {', '.join(names)}", "step")
+    at: dict[float, list[tuple[str, Check]]] = {}  # misses at each trial duration
+    search = _Search(batch, step, tol)
+    if not search.parts:
+        return _answer(step, None, None, f"no part has a target in step '{step}'", 0)
+    holds = [
+        t.for_s or 0.0 for p in search.parts for t in p.targets if t.step == step and t.kind == "hold_above"
+    ]
+    floor_s = max([_MIN_STEP_S, *holds])
+    limit_s = _limits.MAX_STEP_S
+
+    def improvable(d: float) -> list[tuple[str, Check]]:
+        return [f for f in at[d] if search.helped(f[0], f[1], d)]
+
+    def stuck(d: float) -> dict[str, Any]:
+        pid, c = next(f for f in at[d] if not search.helped(f[0], f[1], d))
+        return _answer(
+            step,
+            None,
+            pid,
+            f"{pid}: {c.message}. A longer '{step}' cannot clear a {c.target} target, so no duration of "
+            f"'{step}' clears every target of that step.",
+            search.runs,
+        )
+
+    # A longer step only helps the misses `helped` names and never clears the others, so: find the shortest
+    # duration at which no helped target misses, then check the others there.
+    hi = batch.step(step).duration_s
+    at[hi] = search.failures(hi)
+    if improvable(hi):
+        lo = hi
+        while improvable(lo):
+            if len(improvable(lo)) < len(at[lo]):
+                return stuck(lo)  # both kinds miss: shorter and longer both fail
+            if lo >= limit_s:
+                pid, c = _worst(improvable(lo))
+                return _answer(
+                    step,
+                    None,
+                    pid,
+                    f"{pid}: {c.message} even with '{step}' at "
+                    f"{format_duration(lo)}, the longest step allowed",
+                    search.runs,
+                )
+            hi = min(2.0 * lo, limit_s)
+            at[hi] = search.failures(hi)
+            if not improvable(hi):
+                break
+            lo = hi
+    else:
+        lo = floor_s
+        if lo < hi:
+            at[lo] = search.failures(lo)
+            if not improvable(lo):
+                hi = lo
+    while hi - lo > max(0.01 * hi, 60.0):
+        mid = float(math.ceil(0.5 * (lo + hi)))
+        at[mid] = search.failures(mid)
+        if improvable(mid):
+            lo = mid
+        else:
+            hi = mid
+    if at[hi]:
+        return stuck(hi)
+    limiting = _worst(improvable(lo))[0] if lo in at and improvable(lo) else None
+    if limiting is None:
+        limiting = next(
+            (
+                p.id
+                for p in search.parts
+                for t in p.targets
+                if t.step == step and t.kind == "hold_above" and (t.for_s or 0.0) >= floor_s
+            ),
+            None,
+        )
+    return _answer(step, hi, limiting, None, search.runs)

@@ -115,6 +115,7 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
     state = State(None, None, g.initial.copy(), np.zeros(g.P))
     face_c = np.repeat(g.initial[:, None], len(g.faces), axis=1)
     mean_c = g.initial.copy()
+    prof_c = None if g.quad_xi is None else np.repeat(g.initial[:, None], len(g.quad_xi), axis=1)
     heat_acc = np.zeros(g.P)
     substeps = 0
     col = 1
@@ -153,18 +154,25 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
             if dur - t1 < _MIN_FRACTION * dur:
                 t1 = dur
             f0 = g.freeze(specs, face_c, mean_c, t)
+            if prof_c is not None:
+                f0 = Frozen(f0.h, f0.k, g.capacity(prof_c))
             alpha = np.minimum(alpha, f0.k / f0.rc)
             # fewer modes are needed as the step goes on and the high ones die out
             g.choose_modes(max(t, offsets[0]), float(span.max()), rate, alpha, None if linear else t1 - t)
             sub = g.prepare(state, f0, specs, t)
             if not linear:
-                face1, mean1 = _face_and_mean(g, g.evaluate(sub, np.array([t1 - t]))[0])
+                vals1 = g.evaluate(sub, np.array([t1 - t]))[0]
+                face1, mean1 = _face_and_mean(g, vals1)
+                prof1 = g.profile(vals1, 0)
                 f1 = g.freeze(specs, face1, mean1, t1)
+                if prof1 is not None:
+                    f1 = Frozen(f1.h, f1.k, g.capacity(prof1))
                 change = f0.change(f1)
                 if change > tol.substep and (t1 - t) > _MIN_FRACTION * dur * 10:
                     dt = (t1 - t) * max(0.2, 0.8 * tol.substep / change)
                     continue
-                avg = Frozen(0.5 * (f0.h + f1.h), 0.5 * (f0.k + f1.k), g.mats.secant_capacity(mean_c, mean1))
+                rc = g.mats.secant_capacity(mean_c, mean1) if prof_c is None else g.capacity(prof_c, prof1)
+                avg = Frozen(0.5 * (f0.h + f1.h), 0.5 * (f0.k + f1.k), rc)
                 alpha = np.minimum(alpha, avg.k / avg.rc)
                 sub = g.prepare(state, avg, specs, t)
                 dt = (t1 - t) * min(2.0, 0.8 * tol.substep / max(change, 1e-12))
@@ -178,6 +186,7 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
                 out["bound"][:, sl] = g.bound(offsets[inside], span, rate, alpha)
             heat_acc = heat_acc + heat[:, -1]
             face_c, mean_c = _face_and_mean(g, {nm: v[:, -1:] for nm, v in vals.items()})
+            prof_c = g.profile(vals, -1)
             state = g.advance(sub, t1 - t)
             substeps += 1
             t = t1

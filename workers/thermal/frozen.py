@@ -13,6 +13,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import NDArray
 
 from workers.thermal.spec import Curve, Face, FloatArray, Material
 
@@ -82,6 +83,19 @@ class MaterialSet:
         out = np.empty_like(temp_c, dtype=float)
         for i, m in enumerate(self.unique):
             sel = self.which == i
+            if f == "k":
+                out[sel] = m.conductivity(temp_c[sel])
+            elif f == "cp":
+                out[sel] = m.specific_heat(temp_c[sel])
+            else:
+                out[sel] = enthalpy(m.specific_heat, temp_c[sel])
+        return out
+
+    def each_part(self, part: NDArray[np.intp], temp_c: FloatArray, f: str) -> FloatArray:
+        """Property ``f`` (k, cp or h = enthalpy per kg) of part ``part[i]`` at ``temp_c[i]``."""
+        out = np.empty_like(temp_c, dtype=float)
+        for i, m in enumerate(self.unique):
+            sel = self.which[part] == i
             if f == "k":
                 out[sel] = m.conductivity(temp_c[sel])
             elif f == "cp":

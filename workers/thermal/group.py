@@ -86,6 +86,10 @@ class Group:
         self.alpha_min = self.mats.slowest_diffusivity()
         self.tol = tol
         self.n_modes: tuple[int, ...] = ()
+        self.quad_xi: list[FloatArray] | None = None
+        self.quad_w: FloatArray | None = None
+        if not self.mats.constant:
+            self.quad_xi, self.quad_w = _quadrature(self.kinds)
 
     # ----------------------------------------------------------------- set-up
     def choose_modes(
@@ -143,6 +147,7 @@ class Group:
     # ------------------------------------------------------------- freezing
     def face_specs(self, step: Step) -> list[tuple[Face, Callable[[float], float]]]:
         """Face law and ambient (as a function of step time) of every face of the layout."""
+
         def main(t: float) -> float:
             return float(step.ambient_at(t))
 
@@ -286,7 +291,38 @@ class Group:
                 tensor.outer(svecs).reshape(self.P, -1)
                 * (f.geo * f.sign / self.lengths[:, f.axis : f.axis + 1] ** 2)
             )
+        if self.quad_xi is not None:
+            # the profile at quadrature points, for the heat capacity of a varying-property part
+            for q, xi in enumerate(self.quad_xi):
+                names.append(f"q{q}")
+                w.append(self._point_weights(md, np.broadcast_to(xi, (self.P, xi.size))))
+                off.append(np.full(self.P, xi[0]))
         return names, np.stack(w, axis=1), np.stack(off, axis=1), np.stack(slopes, axis=1)
+
+    def profile(self, vals: dict[str, FloatArray], col: int) -> FloatArray | None:
+        """Temperatures (P, Q) at the quadrature points from a read-out, or None for constant properties."""
+        if self.quad_xi is None:
+            return None
+        return np.stack([vals[f"q{q}"][:, col] for q in range(len(self.quad_xi))], axis=1)
+
+    def capacity(self, prof0: FloatArray, prof1: FloatArray | None = None) -> FloatArray:
+        """Volume-average rho*c of a profile, or the volume enthalpy change over the mean change between
+        two profiles: what conserves energy when a latent-heat peak is crossed in part of the section."""
+        assert self.quad_w is not None
+        w = self.quad_w
+        rho = self.mats.density
+        P, Q = prof0.shape
+        flat0 = prof0.reshape(-1)
+        cp0 = self.mats.each_part(np.repeat(np.arange(P), Q), flat0, "cp").reshape(P, Q)
+        if prof1 is None:
+            return np.asarray(rho * (cp0 @ w), dtype=float)
+        idx = np.repeat(np.arange(P), Q)
+        h0 = self.mats.each_part(idx, flat0, "h").reshape(P, Q)
+        h1 = self.mats.each_part(idx, prof1.reshape(-1), "h").reshape(P, Q)
+        dT = (prof1 - prof0) @ w
+        cpm = self.mats.each_part(idx, (0.5 * (prof0 + prof1)).reshape(-1), "cp").reshape(P, Q) @ w
+        small = np.abs(dT) < 1e-6
+        return np.asarray(rho * np.where(small, cpm, ((h1 - h0) @ w) / np.where(small, 1.0, dT)), dtype=float)
 
     def evaluate(self, sub: Sub, dt: FloatArray) -> tuple[dict[str, FloatArray], FloatArray]:
         """Read-outs (name -> (P, m)) and heat in per volume (P, m), ``dt`` after the substep start."""
@@ -324,6 +360,28 @@ class Group:
         x = sub.K * dt
         A = sub.A0 * np.exp(-x) - sub.S * dt * phi(x)
         return State(sub.modes, A, sub.sA + sub.dsA * dt, sub.sB + sub.dsB * dt)
+
+
+_QUAD_NODES = {1: 16, 2: 8, 3: 5}
+
+
+def _quadrature(kinds: Sequence[layout.AxisKind]) -> tuple[list[FloatArray], FloatArray]:
+    """Tensor Gauss-Legendre points (as xi per axis) and volume weights summing to 1."""
+    n = _QUAD_NODES[len(kinds)]
+    x, w = np.polynomial.legendre.leggauss(n)
+    x, w = 0.5 * (x + 1), 0.5 * w
+    axes = []
+    for kind in kinds:
+        wk = 2 * x * w if kind == "bessel" else w
+        axes.append((x, wk / wk.sum()))
+    grids = np.meshgrid(*[a[0] for a in axes], indexing="ij")
+    wgrid = np.ones_like(grids[0])
+    for i, a in enumerate(axes):
+        shape = [1] * len(axes)
+        shape[i] = n
+        wgrid = wgrid * a[1].reshape(shape)
+    pts = [np.array([g.reshape(-1)[j] for g in grids]) for j in range(grids[0].size)]
+    return pts, wgrid.reshape(-1)
 
 
 def phi(x: FloatArray) -> FloatArray:

@@ -29,13 +29,17 @@ class Frozen:
     k: FloatArray
     rc: FloatArray
 
-    def change(self, other: Frozen) -> float:
-        """Largest relative change of any coefficient between two freezes."""
+    def change(self, other: Frozen, rc_weight: float = 1.0) -> float:
+        """Largest relative change of any coefficient between two freezes.
+
+        ``rc_weight`` scales the heat capacity's share: its substep value is the enthalpy secant, exact
+        for the section's energy, so it can be allowed to move further than h and k.
+        """
         out = 0.0
-        for a, b in ((self.h, other.h), (self.k, other.k), (self.rc, other.rc)):
+        for a, b, wt in ((self.h, other.h, 1.0), (self.k, other.k, 1.0), (self.rc, other.rc, rc_weight)):
             finite = np.isfinite(a) & np.isfinite(b)
             den = np.maximum(np.maximum(np.abs(a), np.abs(b)), 1e-12)
-            rel = np.where(finite, np.abs(a - b) / den, 0.0)
+            rel = wt * np.where(finite, np.abs(a - b) / den, 0.0)
             if rel.size:
                 out = max(out, float(rel.max()))
         return out
@@ -117,6 +121,12 @@ class MaterialSet:
         span = np.where(close, 1.0, t1 - t0)
         sec = (self._each(t1, "h") - self._each(t0, "h")) / span
         return self.density * np.where(close, self._each(0.5 * (t0 + t1), "cp"), sec)
+
+    def specific_heat_range(self) -> tuple[FloatArray, FloatArray]:
+        """Smallest and largest tabulated specific heat of each part's material, J/kg/K."""
+        lo = np.array([min(m.specific_heat.value) for m in self.unique])[self.which]
+        hi = np.array([max(m.specific_heat.value) for m in self.unique])[self.which]
+        return lo, hi
 
     def slowest_diffusivity(self) -> FloatArray:
         """Smallest k / (rho cp) over each material's tables, m^2/s (for conservative mode counts)."""

@@ -180,21 +180,38 @@ class InProcessRunner:
         for thread in self._threads:
             thread.join(timeout)
 
+    def _release(self, job_id: int) -> None:
+        """Put a job that hit a transient error back in line (else the sweeper does, at its deadline)."""
+        try:
+            with session_scope(session_factory(self.settings)) as session:
+                session.execute(
+                    update(Job)
+                    .where(Job.id == job_id, Job.status == JobStatus.RUNNING)
+                    .values(status=JobStatus.QUEUED.value)
+                    .execution_options(synchronize_session=False)
+                )
+        except Exception as exc:
+            log.warning("could not release job %s (%s); the sweeper will", job_id, type(exc).__name__)
+
     def _work(self) -> None:
         from workers.tasks import backoff_s, execute_job, is_transient
 
         failures = 0
         while not self._stop_event.is_set():
+            job_id = None
             try:
                 job_id = claim_next_job(self.settings)
                 if job_id is not None:
-                    execute_job(job_id, self.settings)
+                    execute_job(job_id, self.settings, claimed=True)
                 failures = 0
             except Exception as exc:
                 if not is_transient(exc):
                     log.exception("in-process runner")
+                else:
+                    log.warning("in-process runner: %s; retrying", type(exc).__name__)
                 failures += 1
-                job_id = None
+                if job_id is not None:
+                    self._release(job_id)
                 self._stop_event.wait(backoff_s(failures, self.settings.retry_backoff_max_s))
                 continue
             if job_id is None:

@@ -19,7 +19,7 @@ from celery.signals import worker_init, worker_process_init, worker_ready, worke
 
 from scheduler.settings import Settings, get_settings
 
-__all__ = ["TASK_NAME", "app", "celery_config"]
+__all__ = ["TASK_NAME", "app", "celery_config", "configure"]
 
 TASK_NAME = "soakline.run_job"
 log = logging.getLogger(__name__)
@@ -60,6 +60,17 @@ def celery_config(settings: Settings) -> dict[str, Any]:
 
 app = Celery("soakline", include=["workers.tasks"])
 app.add_defaults(lambda: celery_config(get_settings()))
+
+
+def configure(settings: Settings) -> None:
+    """Point this process's app at ``settings`` instead of the environment (API built from settings)."""
+    wanted = celery_config(settings)
+    if all(app.conf.get(key) == value for key, value in wanted.items()):
+        return
+    app.conf.update(wanted)
+    # Forget the connection pool made for the old URL (kombu keeps pools per URL; closing it would
+    # break them for anyone else): Celery does the same after a fork.
+    app._after_fork()
 
 
 def _prepare_store(**_: Any) -> None:

@@ -1,0 +1,106 @@
+"""Batch endpoints: submit, list, read, part results, rerun, compare, suggest."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Body, Query, Request
+
+from models.tables import BatchStatus
+from scheduler.api import service
+from scheduler.api.deps import CurrentToken, Planner, SessionDep, SettingsDep
+from scheduler.api.schemas import (
+    ERROR_RESPONSES,
+    BatchCreated,
+    BatchPage,
+    BatchPublic,
+    ComparePublic,
+    RerunCreate,
+    SuggestPublic,
+)
+
+router = APIRouter(prefix="/batches", tags=["batches"], responses=ERROR_RESPONSES)
+
+_EXAMPLE = {
+    "batch": "LD-0417 frame plates",
+    "schedule": [{"name": "heat", "duration": "3 h", "ambient": "860 degC", "htc": "150 W/m^2/K"}],
+    "parts": [
+        {
+            "id": "P-101",
+            "shape": "plate",
+            "thickness": "50 mm",
+            "material": "4140",
+            "initial": "20 degC",
+            "targets": [{"step": "heat", "at": "core", "hold_above": "845 degC", "for": "30 min"}],
+        }
+    ],
+}
+
+
+@router.post("", status_code=202, response_model=BatchCreated)
+def submit_batch(
+    request: Request,
+    session: SessionDep,
+    settings: SettingsDep,
+    who: Planner,
+    doc: Annotated[dict[str, Any], Body(description="The batch file, as JSON.", examples=[_EXAMPLE])],
+) -> BatchCreated:
+    """Queue a batch (planner). 422 lists every problem of the file with its field path."""
+    batch = service.submit(session, settings, doc, who, request.app.state.dispatch)
+    return BatchCreated(id=batch.id, status=BatchStatus(batch.status))
+
+
+@router.get("", response_model=BatchPage)
+def list_batches(
+    session: SessionDep,
+    _: CurrentToken,
+    status: BatchStatus | None = None,
+    limit: Annotated[int, Query(ge=1, le=500)] = 50,
+    offset: Annotated[int, Query(ge=0)] = 0,
+) -> BatchPage:
+    """Batches, newest first, optionally only those with one status."""
+    return service.list_batches(session, status, limit, offset)
+
+
+@router.get("/{batch_id}", response_model=BatchPublic)
+def get_batch(batch_id: int, session: SessionDep, _: CurrentToken) -> BatchPublic:
+    """A batch's status and, per part, whether it is flagged and its flags."""
+    return service.get_batch(session, batch_id)
+
+
+@router.get("/{batch_id}/parts/{part_id}")
+def get_part(batch_id: int, part_id: str, session: SessionDep, _: CurrentToken) -> dict[str, Any]:
+    """One part's result with its trace (time_s, core_c, surface_c, ambient_c, ...); 409 until computed."""
+    return service.part_result(session, batch_id, part_id)
+
+
+@router.post("/{batch_id}/rerun", status_code=202, response_model=BatchCreated)
+def rerun_batch(
+    batch_id: int,
+    body: RerunCreate,
+    request: Request,
+    session: SessionDep,
+    settings: SettingsDep,
+    who: Planner,
+) -> BatchCreated:
+    """Queue the batch again with new step durations (planner); the new batch links to this one."""
+    batch = service.rerun(session, settings, batch_id, body.durations, who, request.app.state.dispatch)
+    return BatchCreated(id=batch.id, status=BatchStatus(batch.status), parent_id=batch.parent_id)
+
+
+@router.get("/{batch_id}/compare/{other_id}", response_model=ComparePublic)
+def compare_batches(batch_id: int, other_id: int, session: SessionDep, _: CurrentToken) -> ComparePublic:
+    """Per part, the flags of this batch (before) against another (after), e.g. a rerun."""
+    return service.compare(session, batch_id, other_id)
+
+
+@router.get("/{batch_id}/suggest", response_model=SuggestPublic)
+def suggest_duration(
+    batch_id: int,
+    session: SessionDep,
+    settings: SettingsDep,
+    _: CurrentToken,
+    step: Annotated[str, Query(min_length=1, description="Name of the schedule step to lengthen.")],
+) -> dict[str, Any]:
+    """The shortest duration of one step that clears every flag, and the part that limits it."""
+    return service.suggest(session, settings, batch_id, step)

@@ -1,0 +1,68 @@
+"""Request dependencies as ``Annotated`` aliases: settings, one session per request, the caller's token."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from typing import Annotated
+
+from fastapi import Depends, Request
+from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
+from sqlalchemy.orm import Session
+
+from models.tables import Role
+from scheduler.api.auth import Principal, lookup_token
+from scheduler.api.errors import Forbidden, Unauthorized
+from scheduler.settings import Settings
+from scheduler.store import session_factory
+
+__all__ = ["CurrentToken", "Planner", "Reviewer", "SessionDep", "SettingsDep", "require_role"]
+
+_bearer = HTTPBearer(auto_error=False, description="An API token from `soakline token create`.")
+
+
+def get_settings_dep(request: Request) -> Settings:
+    settings: Settings = request.app.state.settings
+    return settings
+
+
+SettingsDep = Annotated[Settings, Depends(get_settings_dep)]
+
+
+def get_session(settings: SettingsDep) -> Iterator[Session]:
+    with session_factory(settings)() as session:
+        yield session
+
+
+SessionDep = Annotated[Session, Depends(get_session)]
+
+
+def current_token(
+    session: SessionDep,
+    credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(_bearer)],
+) -> Principal:
+    if credentials is None or credentials.scheme.lower() != "bearer":
+        raise Unauthorized("missing token: send 'Authorization: Bearer TOKEN'")
+    principal = lookup_token(session, credentials.credentials)
+    if principal is None:
+        raise Unauthorized("unknown token")
+    return principal
+
+
+CurrentToken = Annotated[Principal, Depends(current_token)]
+
+
+def require_role(role: Role) -> Callable[[Principal], Principal]:
+    """Dependency that lets only ``role`` through (403 otherwise)."""
+
+    def check(principal: CurrentToken) -> Principal:
+        if principal.role != role:
+            raise Forbidden(
+                f"this needs a {role.value} token; {principal.name!r} is a {principal.role.value}"
+            )
+        return principal
+
+    return check
+
+
+Planner = Annotated[Principal, Depends(require_role(Role.PLANNER))]
+Reviewer = Annotated[Principal, Depends(require_role(Role.REVIEWER))]

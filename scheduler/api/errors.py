@@ -1,0 +1,123 @@
+"""Domain errors of the service and the one place where they become HTTP responses.
+
+Every error carries the ids it is about and a message a user can act on. Bodies are
+``{"detail": message}``, plus ``"problems": [{"path", "message"}]`` for 422 (invalid input), where
+``path`` names the field as in the batch file (``parts[2].thickness``) or the request (``query.limit``).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import JSONResponse
+
+__all__ = [
+    "BatchNotFound",
+    "DomainError",
+    "FlagNotFound",
+    "Forbidden",
+    "InvalidInput",
+    "PartNotFound",
+    "ResultNotReady",
+    "Unauthorized",
+    "install_error_handlers",
+]
+
+
+class DomainError(Exception):
+    """Base of the errors a request can end with; ``status_code`` is its HTTP status."""
+
+    status_code = 400
+
+    def __init__(self, message: str) -> None:
+        super().__init__(message)
+        self.message = message
+
+    def body(self) -> dict[str, Any]:
+        return {"detail": self.message}
+
+
+class Unauthorized(DomainError):
+    status_code = 401
+
+
+class Forbidden(DomainError):
+    status_code = 403
+
+
+class BatchNotFound(DomainError):
+    status_code = 404
+
+    def __init__(self, batch_id: int) -> None:
+        super().__init__(f"batch {batch_id} not found")
+        self.batch_id = batch_id
+
+
+class PartNotFound(DomainError):
+    status_code = 404
+
+    def __init__(self, batch_id: int, part_id: str) -> None:
+        super().__init__(f"batch {batch_id} has no part {part_id!r}")
+        self.batch_id, self.part_id = batch_id, part_id
+
+
+class FlagNotFound(DomainError):
+    status_code = 404
+
+    def __init__(self, flag_id: int) -> None:
+        super().__init__(f"flag {flag_id} not found")
+        self.flag_id = flag_id
+
+
+class ResultNotReady(DomainError):
+    status_code = 409
+
+    def __init__(self, batch_id: int, part_id: str, status: str) -> None:
+        super().__init__(f"part {part_id!r} of batch {batch_id} has no result yet (job {status})")
+        self.batch_id, self.part_id, self.status = batch_id, part_id, status
+
+
+class InvalidInput(DomainError):
+    """The request or batch file is invalid; ``problems`` lists every (path, message)."""
+
+    status_code = 422
+
+    def __init__(self, message: str, problems: list[tuple[str, str]]) -> None:
+        super().__init__(message)
+        self.problems = problems
+
+    def body(self) -> dict[str, Any]:
+        return {
+            "detail": self.message,
+            "problems": [{"path": path, "message": msg} for path, msg in self.problems],
+        }
+
+
+def _request_path(loc: tuple[Any, ...]) -> str:
+    out = ""
+    for item in loc:
+        if isinstance(item, int):
+            out += f"[{item}]"
+        else:
+            out += ("." if out else "") + str(item)
+    return out or "body"
+
+
+async def _domain(_: Request, exc: Exception) -> JSONResponse:
+    assert isinstance(exc, DomainError)
+    headers = {"WWW-Authenticate": "Bearer"} if isinstance(exc, Unauthorized) else None
+    return JSONResponse(exc.body(), status_code=exc.status_code, headers=headers)
+
+
+async def _validation(_: Request, exc: Exception) -> JSONResponse:
+    assert isinstance(exc, RequestValidationError)
+    problems = [(_request_path(tuple(err.get("loc", ()))), str(err.get("msg", ""))) for err in exc.errors()]
+    return JSONResponse(InvalidInput("the request is invalid", problems).body(), status_code=422)
+
+
+def install_error_handlers(app: FastAPI) -> None:
+    """Map every domain error, and FastAPI's own request validation, to its HTTP response."""
+    app.add_exception_handler(DomainError, _domain)
+    app.add_exception_handler(RequestValidationError, _validation)

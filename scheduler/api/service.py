@@ -1,0 +1,358 @@
+"""What the API does, apart from HTTP: submit, read, review, rerun and compare batches.
+
+Writes are one transaction each: a batch, its parts and its job rows are committed together, and only
+then are the jobs handed to the queue (``dispatch``), so a worker never sees an id that is not stored.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Callable, Mapping
+from datetime import timedelta
+from typing import Any
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session, selectinload
+
+from models.tables import (
+    Batch,
+    BatchStatus,
+    Decision,
+    Disposition,
+    Flag,
+    FlagStatus,
+    Job,
+    JobStatus,
+    Part,
+    Result,
+    utcnow,
+)
+from scheduler.api.auth import Principal
+from scheduler.api.errors import BatchNotFound, FlagNotFound, InvalidInput, PartNotFound, ResultNotReady
+from scheduler.api.schemas import (
+    BatchPage,
+    BatchPublic,
+    BatchSummary,
+    Change,
+    ComparePart,
+    ComparePublic,
+    DispositionPublic,
+    FlagPage,
+    FlagPublic,
+    PartFlags,
+    PartSummary,
+)
+from scheduler.settings import Settings
+
+__all__ = [
+    "add_disposition",
+    "compare",
+    "get_batch",
+    "list_batches",
+    "list_flags",
+    "part_result",
+    "rerun",
+    "submit",
+    "suggest",
+]
+
+Dispatch = Callable[[list[int]], None]
+
+
+def _spec_problems(exc: Exception) -> list[tuple[str, str]]:
+    problems = getattr(exc, "problems", None)
+    if problems:
+        return [(str(getattr(p, "path", "")), str(getattr(p, "message", p))) for p in problems]
+    return [("", str(exc))]
+
+
+def validate(doc: Any, durations: Mapping[str, str] | None = None) -> Any:
+    """Parse a batch file (and apply rerun durations); InvalidInput naming every bad field."""
+    from models.errors import SpecError
+    from models.loading import parse_batch
+
+    try:
+        spec = parse_batch(doc)
+        if durations:
+            from workers.jobs import with_durations
+
+            spec = with_durations(spec, dict(durations))
+    except SpecError as exc:
+        raise InvalidInput("the batch file is invalid", _spec_problems(exc)) from None
+    return spec
+
+
+def _create(
+    session: Session,
+    settings: Settings,
+    doc: Mapping[str, Any],
+    spec: Any,
+    who: Principal,
+    durations: Mapping[str, str] | None = None,
+    parent_id: int | None = None,
+) -> tuple[Batch, list[int]]:
+    part_ids = [str(part.id) for part in spec.parts]
+    label = str(doc.get("batch") or getattr(spec, "batch", "") or "unnamed batch")[:200]
+    batch = Batch(
+        label=label,
+        status=BatchStatus.QUEUED.value,
+        spec=dict(doc),
+        durations=dict(durations or {}),
+        parent_id=parent_id,
+        part_count=len(part_ids),
+        submitted_by=who.name,
+        created_at=utcnow(),
+    )
+    session.add(batch)
+    session.flush()
+    deadline = utcnow() + timedelta(seconds=settings.job_timeout_s)
+    session.add_all(Part(batch_id=batch.id, part_id=pid, position=n) for n, pid in enumerate(part_ids))
+    jobs = [
+        Job(batch_id=batch.id, part_id=pid, status=JobStatus.QUEUED.value, deadline=deadline)
+        for pid in part_ids
+    ]
+    session.add_all(jobs)
+    session.flush()
+    return batch, [job.id for job in jobs]
+
+
+def submit(
+    session: Session, settings: Settings, doc: Mapping[str, Any], who: Principal, dispatch: Dispatch
+) -> Batch:
+    """Validate, store (one transaction), then queue one job per part."""
+    spec = validate(doc)
+    batch, job_ids = _create(session, settings, doc, spec, who)
+    session.commit()
+    dispatch(job_ids)
+    return batch
+
+
+def rerun(
+    session: Session,
+    settings: Settings,
+    batch_id: int,
+    durations: Mapping[str, str],
+    who: Principal,
+    dispatch: Dispatch,
+) -> Batch:
+    """A new batch with the original's file and changed step durations, linked to the original."""
+    parent = _batch(session, batch_id)
+    merged = {**(parent.durations or {}), **durations}
+    try:
+        spec = validate(parent.spec, merged)
+    except InvalidInput as exc:
+        exc.problems = [
+            (p if p.startswith("durations") else f"durations.{p}" if p else "durations", m)
+            for p, m in exc.problems
+        ]
+        raise
+    batch, job_ids = _create(session, settings, parent.spec, spec, who, merged, parent.id)
+    session.commit()
+    dispatch(job_ids)
+    return batch
+
+
+def _batch(session: Session, batch_id: int) -> Batch:
+    batch = session.get(Batch, batch_id)
+    if batch is None:
+        raise BatchNotFound(batch_id)
+    return batch
+
+
+def list_batches(session: Session, status: BatchStatus | None, limit: int, offset: int) -> BatchPage:
+    query = select(Batch)
+    if status is not None:
+        query = query.where(Batch.status == status)
+    total = session.scalar(select(func.count()).select_from(query.subquery())) or 0
+    rows = session.scalars(query.order_by(Batch.id.desc()).limit(limit).offset(offset)).all()
+    return BatchPage(items=[_summary(b) for b in rows], total=total, limit=limit, offset=offset)
+
+
+def _summary(batch: Batch) -> BatchSummary:
+    return BatchSummary(
+        id=batch.id,
+        batch=batch.label,
+        status=BatchStatus(batch.status),
+        parent_id=batch.parent_id,
+        durations=batch.durations or {},
+        part_count=batch.part_count,
+        submitted_by=batch.submitted_by,
+        created_at=batch.created_at,
+        finished_at=batch.finished_at,
+    )
+
+
+def _flag_view(flag: Flag) -> dict[str, Any]:
+    return {**flag.body, "flag_id": flag.id, "status": flag.status}
+
+
+def _part_flags(session: Session, batch_id: int) -> tuple[dict[str, bool], dict[str, list[dict[str, Any]]]]:
+    rows = session.execute(select(Result.part_id, Result.flagged).where(Result.batch_id == batch_id))
+    flagged = {part_id: bool(is_flagged) for part_id, is_flagged in rows}
+    flags: dict[str, list[dict[str, Any]]] = defaultdict(list)
+    for flag in session.scalars(
+        select(Flag).where(Flag.batch_id == batch_id).order_by(Flag.part_id, Flag.seq)
+    ):
+        flags[flag.part_id].append(_flag_view(flag))
+    return flagged, flags
+
+
+def get_batch(session: Session, batch_id: int) -> BatchPublic:
+    """Status of a batch and, per part in file order, its job status and flags."""
+    batch = _batch(session, batch_id)
+    jobs = {j.part_id: j for j in session.scalars(select(Job).where(Job.batch_id == batch_id))}
+    order = session.scalars(
+        select(Part.part_id).where(Part.batch_id == batch_id).order_by(Part.position)
+    ).all()
+    flagged, flags = _part_flags(session, batch_id)
+    parts = [
+        PartSummary(
+            id=pid,
+            status=JobStatus(jobs[pid].status),
+            flagged=flagged.get(pid),
+            flags=flags.get(pid, []),
+            error=jobs[pid].error,
+        )
+        for pid in order
+    ]
+    return BatchPublic(
+        **_summary(batch).model_dump(),
+        done_count=len(flagged),
+        flagged_count=sum(1 for f in flagged.values() if f),
+        parts=parts,
+    )
+
+
+def part_result(session: Session, batch_id: int, part_id: str) -> dict[str, Any]:
+    """The stored result of one part, trace included."""
+    _batch(session, batch_id)
+    result = session.scalar(select(Result).where(Result.batch_id == batch_id, Result.part_id == part_id))
+    if result is not None:
+        _, flags = _part_flags(session, batch_id)
+        return {**result.body, "flags": flags.get(part_id, [])}
+    job = session.scalar(select(Job).where(Job.batch_id == batch_id, Job.part_id == part_id))
+    if job is None:
+        raise PartNotFound(batch_id, part_id)
+    raise ResultNotReady(batch_id, part_id, job.status)
+
+
+def _disposition(d: Disposition) -> DispositionPublic:
+    return DispositionPublic(
+        id=d.id,
+        flag_id=d.flag_id,
+        decision=Decision(d.decision),
+        comment=d.comment,
+        by=d.decided_by,
+        at=d.decided_at,
+    )
+
+
+def list_flags(
+    session: Session, batch_id: int | None, status: FlagStatus | None, limit: int, offset: int
+) -> FlagPage:
+    """Flags across batches, newest batch first; ``status`` None means every status."""
+    query = select(Flag)
+    if batch_id is not None:
+        query = query.where(Flag.batch_id == batch_id)
+    if status is not None:
+        query = query.where(Flag.status == status)
+    total = session.scalar(select(func.count()).select_from(query.subquery())) or 0
+    rows = session.scalars(
+        query.options(selectinload(Flag.dispositions))
+        .order_by(Flag.batch_id.desc(), Flag.part_id, Flag.seq)
+        .limit(limit)
+        .offset(offset)
+    ).all()
+    found = session.execute(select(Batch.id, Batch.label).where(Batch.id.in_({f.batch_id for f in rows})))
+    labels = {batch_id: label for batch_id, label in found}
+    items = [
+        FlagPublic(
+            id=f.id,
+            batch=f.batch_id,
+            batch_label=labels.get(f.batch_id, ""),
+            part=f.part_id,
+            step=f.step,
+            at=f.at,
+            target=f.target,
+            required=f.body.get("required"),
+            achieved=f.body.get("achieved"),
+            margin=f.body.get("margin"),
+            margin_value=f.body.get("margin_value"),
+            margin_unit=f.body.get("margin_unit"),
+            message=f.body.get("message"),
+            status=FlagStatus(f.status),
+            dispositions=[_disposition(d) for d in f.dispositions],
+        )
+        for f in rows
+    ]
+    return FlagPage(items=items, total=total, limit=limit, offset=offset)
+
+
+def add_disposition(
+    session: Session, flag_id: int, decision: Decision, comment: str, who: Principal
+) -> DispositionPublic:
+    """Record a reviewer's decision; earlier ones stay on record."""
+    flag = session.get(Flag, flag_id, with_for_update=True)
+    if flag is None:
+        raise FlagNotFound(flag_id)
+    row = Disposition(
+        flag_id=flag.id, decision=decision.value, comment=comment, decided_by=who.name, decided_at=utcnow()
+    )
+    session.add(row)
+    flag.status = FlagStatus.DISPOSITIONED.value
+    session.commit()
+    return _disposition(row)
+
+
+def _change(before: bool | None, after: bool | None) -> Change:
+    if before is None or after is None:
+        return "pending"
+    if before and after:
+        return "still-flagged"
+    if before:
+        return "cleared"
+    return "new" if after else "pass"
+
+
+def compare(session: Session, batch_id: int, other_id: int) -> ComparePublic:
+    """Per part (matched by id), the flags of one batch against another's."""
+    _batch(session, batch_id)
+    _batch(session, other_id)
+    order = session.scalars(
+        select(Part.part_id).where(Part.batch_id == batch_id).order_by(Part.position)
+    ).all()
+    other = session.scalars(
+        select(Part.part_id).where(Part.batch_id == other_id).order_by(Part.position)
+    ).all()
+    seen = set(order)
+    f1, g1 = _part_flags(session, batch_id)
+    f2, g2 = _part_flags(session, other_id)
+    parts = [
+        ComparePart(
+            id=pid,
+            before=PartFlags(flagged=f1.get(pid), flags=g1.get(pid, [])),
+            after=PartFlags(flagged=f2.get(pid), flags=g2.get(pid, [])),
+            change=_change(f1.get(pid), f2.get(pid)),
+        )
+        for pid in [*order, *(p for p in other if p not in seen)]
+    ]
+    return ComparePublic(before=batch_id, after=other_id, parts=parts)
+
+
+def suggest(session: Session, settings: Settings, batch_id: int, step: str) -> dict[str, Any]:
+    """Shortest duration of ``step`` that clears every flag of the batch (computed now, not queued)."""
+    from models.errors import SpecError
+    from workers.jobs import suggest as suggest_step
+    from workers.tasks import load_batch_spec
+
+    _batch(session, batch_id)
+    try:
+        spec = load_batch_spec(session, batch_id, settings.database_url)
+        out: dict[str, Any] = dict(suggest_step(spec, step))
+    except SpecError as exc:
+        raise InvalidInput(f"cannot suggest a duration for step {step!r}", _spec_problems(exc)) from None
+    except (KeyError, ValueError) as exc:
+        raise InvalidInput(
+            f"cannot suggest a duration for step {step!r}", [("query.step", str(exc))]
+        ) from None
+    return out

@@ -1,0 +1,337 @@
+"""Service commands of the ``soakline`` CLI: serve, worker, token create, and the HTTP client verbs.
+
+:func:`register` adds them to the main Typer app. Client verbs (``submit``, ``status``, ``flags``,
+``rerun``, ``compare``, ``review``) talk to the API at ``--api`` (default ``SOAKLINE_API_URL``) with
+the token in ``SOAKLINE_TOKEN``. Exit status: 0 done, 1 some part flagged (``submit --wait``), 2 invalid
+input (every problem printed with its field), 3 the API or database could not be reached or refused.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+from pathlib import Path
+from typing import Annotated, Any, NoReturn
+
+import httpx
+import typer
+from rich.console import Console
+from rich.table import Table
+
+from models.tables import Decision, Role
+from scheduler.settings import Settings, SettingsError, load_settings
+
+__all__ = ["register"]
+
+out = Console()
+err = Console(stderr=True)
+
+ApiOpt = Annotated[str | None, typer.Option("--api", help="API base URL [default: SOAKLINE_API_URL].")]
+JsonOpt = Annotated[bool, typer.Option("--json", help="Print the API's JSON instead of a table.")]
+SAFETY = (
+    "Predictions are planning estimates: site procedures, heat-treatment and pyrometry specifications "
+    "and qualified metallurgists decide; load thermocouples and hardness checks are not replaced."
+)
+
+
+def _fail(message: str, code: int) -> NoReturn:
+    err.print(f"[red]error:[/red] {message}", highlight=False)
+    raise typer.Exit(code)
+
+
+def _settings() -> Settings:
+    try:
+        return load_settings()
+    except SettingsError as exc:
+        _fail(str(exc), 2)
+
+
+def _prepare_database(settings: Settings) -> None:
+    from scheduler.store import DatabaseUnavailable, migrate, wait_for_database
+
+    try:
+        wait_for_database(settings, log=lambda m: err.print(m, highlight=False))
+        migrate(settings)
+    except DatabaseUnavailable as exc:
+        _fail(str(exc), 3)
+
+
+# -- processes -----------------------------------------------------------------------------------------
+
+
+def serve(
+    host: Annotated[str, typer.Option(help="Address to listen on.")] = "127.0.0.1",
+    port: Annotated[int, typer.Option(help="TCP port.", min=1, max=65535)] = 8000,
+) -> None:
+    """Run the HTTP API. Without SOAKLINE_BROKER_URL it also runs the jobs itself."""
+    import uvicorn
+
+    from scheduler.api import create_app
+
+    settings = _settings()
+    _prepare_database(settings)
+    mode = (
+        f"Celery workers via {settings.broker_url}" if settings.broker_url else "in-process jobs (no broker)"
+    )
+    err.print(f"soakline API on http://{host}:{port} ({mode}); OpenAPI at /docs", highlight=False)
+    uvicorn.run(create_app(settings), host=host, port=port, log_level="info")
+
+
+def worker(
+    concurrency: Annotated[int, typer.Option("--concurrency", "-c", min=1, help="Worker processes.")] = 2,
+    loglevel: Annotated[str, typer.Option(help="Celery log level.")] = "info",
+) -> None:
+    """Run a Celery worker (same as `celery -A workers worker`); needs SOAKLINE_BROKER_URL."""
+    settings = _settings()
+    if settings.broker_url is None:
+        _fail("SOAKLINE_BROKER_URL is not set; a worker needs a broker such as redis://127.0.0.1:6379/0", 2)
+    _prepare_database(settings)
+    from workers.celery_app import app
+
+    app.worker_main(
+        ["worker", f"--concurrency={concurrency}", f"--loglevel={loglevel}", "-Q", settings.queue]
+    )
+
+
+def token_create(
+    name: Annotated[str, typer.Argument(help="Who or what the token is for.")],
+    role: Annotated[Role, typer.Option(help="planner: submit/rerun; reviewer: dispositions; viewer: read.")],
+) -> None:
+    """Create an API token; it is printed once, as the last word, and only its hash is stored."""
+    from scheduler.api.auth import create_token
+    from scheduler.store import session_factory, session_scope
+
+    settings = _settings()
+    _prepare_database(settings)
+    try:
+        with session_scope(session_factory(settings)) as session:
+            token = create_token(session, name, role)
+    except ValueError as exc:
+        _fail(str(exc), 2)
+    out.print(
+        f"{role.value} token for {name} (shown once, keep it safe): {token}", highlight=False, soft_wrap=True
+    )
+
+
+# -- HTTP client ---------------------------------------------------------------------------------------
+
+
+def _client(api: str | None) -> httpx.Client:
+    settings = _settings()
+    if settings.token is None:
+        _fail("set SOAKLINE_TOKEN to an API token (`soakline token create NAME --role ...`)", 2)
+    base = (api or settings.api_url).rstrip("/")
+    headers = {"Authorization": f"Bearer {settings.token.get_secret_value()}"}
+    return httpx.Client(base_url=base, headers=headers, timeout=60.0)
+
+
+def _call(client: httpx.Client, method: str, url: str, **kwargs: Any) -> Any:
+    try:
+        response = client.request(method, url, **kwargs)
+    except httpx.HTTPError as exc:
+        _fail(f"cannot reach the API at {client.base_url} ({exc}); is `soakline serve` running?", 3)
+    if response.status_code == 422:
+        body = response.json()
+        err.print(f"[red]invalid:[/red] {body.get('detail', '')}", highlight=False)
+        for problem in body.get("problems", []):
+            err.print(f"  {problem.get('path') or '(file)'}: {problem.get('message')}", highlight=False)
+        raise typer.Exit(2)
+    if response.status_code >= 400:
+        try:
+            detail = response.json().get("detail", response.text)
+        except ValueError:
+            detail = response.text
+        _fail(f"{response.status_code}: {detail}", 3)
+    return response.json()
+
+
+def _read_batch_file(path: Path) -> Any:
+    import yaml
+
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        _fail(f"cannot read {path}: {exc.strerror}", 2)
+    try:
+        return json.loads(text) if path.suffix.lower() == ".json" else yaml.safe_load(text)
+    except (ValueError, yaml.YAMLError) as exc:
+        _fail(f"{path} is not valid {'JSON' if path.suffix.lower() == '.json' else 'YAML'}: {exc}", 2)
+
+
+def _flag_text(flag: dict[str, Any]) -> str:
+    return str(flag.get("message") or f"{flag.get('step')}/{flag.get('at')} {flag.get('target')}")
+
+
+def _print_batch(body: dict[str, Any]) -> None:
+    table = Table(title=f"batch {body['id']}: {body['batch']} [{body['status']}]")
+    for col in ("part", "status", "flagged", "flags"):
+        table.add_column(col)
+    for part in body["parts"]:
+        flagged = "-" if part["flagged"] is None else ("yes" if part["flagged"] else "no")
+        flags = "; ".join(f"#{f.get('flag_id')} {_flag_text(f)}" for f in part["flags"]) or (
+            part.get("error") or ""
+        )
+        table.add_row(part["id"], part["status"], flagged, flags)
+    out.print(table)
+    out.print(f"{body['done_count']}/{body['part_count']} parts computed, {body['flagged_count']} flagged")
+    out.print(SAFETY, style="dim")
+
+
+def _wait(client: httpx.Client, batch_id: int, timeout_s: float) -> dict[str, Any]:
+    end = time.monotonic() + timeout_s
+    while True:
+        body: dict[str, Any] = _call(client, "GET", f"/batches/{batch_id}")
+        if body["status"] in ("done", "failed"):
+            return body
+        if time.monotonic() > end:
+            _fail(f"batch {batch_id} still {body['status']} after {timeout_s:g} s", 3)
+        time.sleep(0.5)
+
+
+def submit(
+    file: Annotated[Path, typer.Argument(help="Batch file (YAML or JSON).")],
+    api: ApiOpt = None,
+    wait: Annotated[bool, typer.Option(help="Wait for the batch to finish and show it.")] = False,
+    timeout: Annotated[float, typer.Option(help="Seconds to wait with --wait.")] = 3600.0,
+) -> None:
+    """Submit a batch file to the API (planner token)."""
+    doc = _read_batch_file(file)
+    with _client(api) as client:
+        created = _call(client, "POST", "/batches", json=doc)
+        out.print(f"batch {created['id']} {created['status']}", highlight=False)
+        if wait:
+            body = _wait(client, created["id"], timeout)
+            _print_batch(body)
+            if body["flagged_count"]:
+                raise typer.Exit(1)
+
+
+def status(
+    batch_id: Annotated[int, typer.Argument(help="Batch id.")],
+    api: ApiOpt = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """Show a batch: its status and each part's flags."""
+    with _client(api) as client:
+        body = _call(client, "GET", f"/batches/{batch_id}")
+    if as_json:
+        out.print_json(data=body)
+    else:
+        _print_batch(body)
+
+
+def flags(
+    api: ApiOpt = None,
+    batch: Annotated[int | None, typer.Option(help="Only this batch.")] = None,
+    state: Annotated[str, typer.Option("--status", help="open, dispositioned or all.")] = "open",
+    as_json: JsonOpt = False,
+) -> None:
+    """List flags across batches (open ones by default)."""
+    params: dict[str, Any] = {"status": state, "limit": 1000}
+    if batch is not None:
+        params["batch"] = batch
+    with _client(api) as client:
+        body = _call(client, "GET", "/flags", params=params)
+    if as_json:
+        out.print_json(data=body)
+        return
+    table = Table(title=f"{body['total']} {state} flag(s)")
+    for col in ("flag", "batch", "part", "step", "at", "target", "margin", "status", "message"):
+        table.add_column(col)
+    for f in body["items"]:
+        table.add_row(
+            str(f["id"]), str(f["batch"]), f["part"], f["step"], f["at"], f["target"],
+            str(f.get("margin", "")), f["status"], str(f.get("message") or ""),
+        )  # fmt: skip
+    out.print(table)
+
+
+def _durations(pairs: list[str]) -> dict[str, str]:
+    durations: dict[str, str] = {}
+    for pair in pairs:
+        step, sep, value = pair.partition("=")
+        if not sep or not step.strip() or not value.strip():
+            _fail(f'--set expects STEP=DURATION (like soak="4 h"), got {pair!r}', 2)
+        durations[step.strip()] = value.strip()
+    return durations
+
+
+def rerun(
+    batch_id: Annotated[int, typer.Argument(help="Batch to rerun.")],
+    set_: Annotated[
+        list[str], typer.Option("--set", help="STEP=DURATION, e.g. --set soak='4 h'; repeatable.")
+    ],
+    api: ApiOpt = None,
+    wait: Annotated[bool, typer.Option(help="Wait for the rerun and compare it with the original.")] = False,
+    timeout: Annotated[float, typer.Option(help="Seconds to wait with --wait.")] = 3600.0,
+) -> None:
+    """Rerun a batch with new step durations (planner token); prints the new batch id."""
+    durations = _durations(set_)
+    with _client(api) as client:
+        created = _call(client, "POST", f"/batches/{batch_id}/rerun", json={"durations": durations})
+        out.print(f"batch {created['id']} {created['status']} (rerun of {batch_id})", highlight=False)
+        if wait:
+            _wait(client, created["id"], timeout)
+            _print_compare(_call(client, "GET", f"/batches/{batch_id}/compare/{created['id']}"))
+
+
+def _print_compare(body: dict[str, Any]) -> None:
+    table = Table(title=f"batch {body['before']} -> batch {body['after']}")
+    for col in ("part", "change", "before", "after"):
+        table.add_column(col)
+    for part in body["parts"]:
+        before = "; ".join(_flag_text(f) for f in part["before"]["flags"]) or "-"
+        after = "; ".join(_flag_text(f) for f in part["after"]["flags"]) or "-"
+        table.add_row(part["id"], part["change"], before, after)
+    out.print(table)
+
+
+def compare(
+    batch_id: Annotated[int, typer.Argument(help="Original batch.")],
+    other_id: Annotated[int, typer.Argument(help="Batch to compare with (e.g. its rerun).")],
+    api: ApiOpt = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """Per part, flags before and after."""
+    with _client(api) as client:
+        body = _call(client, "GET", f"/batches/{batch_id}/compare/{other_id}")
+    if as_json:
+        out.print_json(data=body)
+    else:
+        _print_compare(body)
+
+
+def review(
+    flag_id: Annotated[int, typer.Argument(help="Flag id (see `soakline flags`).")],
+    decision: Annotated[Decision, typer.Option(help="use-as-is, re-treat or scrap.")],
+    comment: Annotated[str, typer.Option(help="Why; kept with your token's name and the time.")],
+    api: ApiOpt = None,
+) -> None:
+    """Record a disposition for a flag (reviewer token)."""
+    with _client(api) as client:
+        body = _call(
+            client,
+            "POST",
+            f"/flags/{flag_id}/disposition",
+            json={"decision": decision.value, "comment": comment},
+        )
+    out.print(f"flag {flag_id}: {body['decision']} by {body['by']} at {body['at']}", highlight=False)
+
+
+def register(app: typer.Typer) -> None:
+    """Add the service commands to the main ``soakline`` app."""
+    app.command("serve")(serve)
+    app.command("worker")(worker)
+    token_app = typer.Typer(help="API tokens.", no_args_is_help=True)
+    token_app.command("create")(token_create)
+    app.add_typer(token_app, name="token")
+    for fn in (submit, status, flags, rerun, compare, review):
+        app.command(fn.__name__)(fn)
+
+
+if __name__ == "__main__":  # pragma: no cover - convenience: python -m scheduler.service_cli
+    _app = typer.Typer(no_args_is_help=True)
+    register(_app)
+    _app(prog_name="soakline")
+    sys.exit(0)

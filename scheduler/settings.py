@@ -1,0 +1,117 @@
+"""Runtime configuration of the service: one pydantic-settings object read from ``SOAKLINE_*`` variables.
+
+Read it with :func:`get_settings` (cached). A bad value stops the process at start-up with a message
+naming the variable (:class:`SettingsError`), rather than failing later inside a request or a task.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+from pathlib import Path
+from typing import Self
+
+from platformdirs import user_data_dir
+from pydantic import Field, SecretStr, ValidationError, field_validator, model_validator
+from pydantic_settings import BaseSettings, SettingsConfigDict
+from sqlalchemy.engine import make_url
+from sqlalchemy.exc import ArgumentError
+
+ENV_PREFIX = "SOAKLINE_"
+_DATABASE_BACKENDS = {"sqlite", "postgresql"}
+_BROKER_SCHEMES = {"redis", "rediss", "amqp", "pyamqp", "memory"}
+
+
+def default_database_url() -> str:
+    """SQLite file in the user's data folder: a working store with no server to set up."""
+    return f"sqlite:///{Path(user_data_dir('soakline', appauthor=False)) / 'soakline.db'}"
+
+
+class SettingsError(RuntimeError):
+    """A configuration value is missing or malformed; the message names each variable to fix."""
+
+
+class Settings(BaseSettings):
+    """Everything the API, the workers and the CLI client read from the environment."""
+
+    model_config = SettingsConfigDict(env_prefix=ENV_PREFIX, frozen=True)
+
+    database_url: str = Field(default_factory=default_database_url)
+    broker_url: str | None = None
+    queue: str = Field(default="soakline", min_length=1, pattern=r"^[A-Za-z0-9_.:-]+$")
+    # A job that has produced no result this long after it was (re)queued is queued again.
+    job_timeout_s: float = Field(default=600.0, gt=0)
+    # Redis hands an unacknowledged message to another worker after this long; it must outlast a job.
+    visibility_timeout_s: float = Field(default=3600.0, gt=0)
+    sweep_interval_s: float = Field(default=15.0, gt=0)
+    max_attempts: int = Field(default=5, ge=1)
+    # A worker computes up to this many queued parts of a batch in one vectorised engine call.
+    group_parts: int = Field(default=50, ge=1, le=1000)
+    retry_backoff_max_s: int = Field(default=60, ge=1)
+    inprocess_threads: int = Field(default=1, ge=1, le=64)
+    db_wait_s: float = Field(default=60.0, ge=0)
+    api_url: str = "http://127.0.0.1:8000"
+    token: SecretStr | None = None
+
+    @field_validator("database_url")
+    @classmethod
+    def _known_database(cls, value: str) -> str:
+        try:
+            url = make_url(value)
+        except ArgumentError as exc:
+            raise ValueError(f"not a SQLAlchemy URL ({exc})") from None
+        if url.get_backend_name() not in _DATABASE_BACKENDS:
+            raise ValueError(f"backend {url.get_backend_name()!r} unsupported; use sqlite or postgresql")
+        return value
+
+    @field_validator("broker_url")
+    @classmethod
+    def _known_broker(cls, value: str | None) -> str | None:
+        if value is None or value.strip() == "":
+            return None
+        scheme = value.split("://", 1)[0] if "://" in value else ""
+        if scheme not in _BROKER_SCHEMES:
+            raise ValueError(f"expected a URL like redis://127.0.0.1:6379/0, got {value!r}")
+        return value
+
+    @field_validator("api_url")
+    @classmethod
+    def _http_url(cls, value: str) -> str:
+        if not value.startswith(("http://", "https://")):
+            raise ValueError(f"expected an http(s) URL, got {value!r}")
+        return value.rstrip("/")
+
+    @model_validator(mode="after")
+    def _visibility_outlasts_job(self) -> Self:
+        if self.visibility_timeout_s < self.job_timeout_s:
+            raise ValueError(
+                f"{ENV_PREFIX}VISIBILITY_TIMEOUT_S ({self.visibility_timeout_s:g}) must be at least "
+                f"{ENV_PREFIX}JOB_TIMEOUT_S ({self.job_timeout_s:g}), or Redis redelivers running jobs"
+            )
+        return self
+
+    @property
+    def sqlite_path(self) -> Path | None:
+        """File of a SQLite database, None for a server or an in-memory database."""
+        url = make_url(self.database_url)
+        if url.get_backend_name() != "sqlite" or not url.database or url.database == ":memory:":
+            return None
+        return Path(url.database)
+
+
+def load_settings() -> Settings:
+    """Read the environment now; raise :class:`SettingsError` naming each bad variable."""
+    try:
+        return Settings()
+    except ValidationError as exc:
+        lines = []
+        for err in exc.errors():
+            field = "_".join(str(p) for p in err["loc"]).upper()
+            name = f"{ENV_PREFIX}{field}" if field else "settings"
+            lines.append(f"{name}: {err['msg']}")
+        raise SettingsError("bad configuration:\n  " + "\n  ".join(lines)) from None
+
+
+@lru_cache(maxsize=1)
+def get_settings() -> Settings:
+    """The process-wide settings, read once."""
+    return load_settings()

@@ -1,0 +1,47 @@
+"""Start a real service process for the tests: ``launch.py worker ARGS`` or ``launch.py cli ARGS``.
+
+``worker`` is ``celery -A workers worker ARGS`` and ``cli`` the service CLI (serve, token, submit...),
+plus one test-only hook: ``SOAKLINE_TEST_PART_DELAY_S``, a pause before each part, so that a test can
+kill or cut things off while a batch is surely still in flight however fast the engine becomes.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+
+import workers.jobs as jobs
+
+delay = float(os.environ.get("SOAKLINE_TEST_PART_DELAY_S", "0"))
+if delay > 0:
+    real = jobs.run_part
+
+    def slow_run_part(batch: Any, part_id: str) -> dict[str, Any]:
+        time.sleep(delay)
+        return dict(real(batch, part_id))
+
+    jobs.run_part = slow_run_part  # type: ignore[assignment]
+
+
+def main() -> None:
+    if sys.argv[1] == "worker":
+        from workers.celery_app import app
+
+        app.worker_main(["worker", *sys.argv[2:]])
+    else:
+        import typer
+
+        from scheduler.service_cli import register
+
+        cli = typer.Typer()
+        register(cli)
+        cli(sys.argv[2:], prog_name="soakline")
+
+
+if __name__ == "__main__":
+    main()

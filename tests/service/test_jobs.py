@@ -1,0 +1,140 @@
+"""Job semantics on the real PostgreSQL: one result per part whatever the deliveries, failures end the
+batch ``failed`` with the other results kept, the sweeper re-queues stale jobs, one flip to done."""
+
+from __future__ import annotations
+
+import importlib
+import threading
+from datetime import timedelta
+from typing import Any
+
+import pytest
+from sqlalchemy import select, update
+
+from models.tables import Batch, Job, Result, Role, utcnow
+from scheduler.api import service
+from scheduler.api.auth import Principal
+from scheduler.settings import Settings
+from scheduler.store import session_factory, session_scope
+from workers.background import claim_next_job, sweep_once
+from workers.tasks import execute_job, finish_batch
+
+from .helpers import assert_complete_exactly_once, batch_doc, store_counts
+
+pytestmark = pytest.mark.service
+
+PLANNER = Principal("planner-test", Role.PLANNER)
+
+
+def _submit(settings: Settings, parts: int) -> tuple[int, list[int]]:
+    sent: list[int] = []
+    with session_factory(settings)() as session:
+        batch = service.submit(session, settings, batch_doc(parts), PLANNER, sent.extend)
+    return batch.id, sent
+
+
+def test_jobs_are_committed_before_dispatch(pg_settings: Settings) -> None:
+    seen: list[int] = []
+
+    def dispatch(ids: list[int]) -> None:
+        with session_factory(pg_settings)() as other:  # another connection sees them: committed
+            seen.extend(other.scalars(select(Job.id).where(Job.id.in_(ids))).all())
+
+    with session_factory(pg_settings)() as session:
+        service.submit(session, pg_settings, batch_doc(5), PLANNER, dispatch)
+    assert len(seen) == 5
+
+
+def test_redelivery_and_concurrent_duplicates_store_one_result(pg_settings: Settings) -> None:
+    batch_id, job_ids = _submit(pg_settings, 4)
+    outcomes: list[str] = []
+    threads = [
+        threading.Thread(target=lambda j=j: outcomes.append(execute_job(j, pg_settings)))
+        for j in job_ids
+        for _ in range(3)
+    ]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert "done" in outcomes and set(outcomes) <= {"done", "skipped"}
+    assert execute_job(job_ids[0], pg_settings) == "skipped"
+    assert_complete_exactly_once(pg_settings, batch_id, 4)
+
+
+def test_a_failing_part_fails_its_job_and_the_batch_keeps_the_rest(
+    pg_settings: Settings, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    jobs = importlib.import_module("workers.jobs")
+    real_part, real_batch = jobs.run_part, jobs.run_batch
+
+    def run_part(batch: Any, part_id: str) -> dict[str, Any]:
+        if part_id == "P-001":
+            raise ArithmeticError("no convergence for P-001")
+        return dict(real_part(batch, part_id))
+
+    def run_batch(batch: Any) -> dict[str, Any]:
+        if any(p.id == "P-001" for p in batch.parts):
+            raise ArithmeticError("no convergence for P-001")
+        return dict(real_batch(batch))
+
+    # The one way to make a part fail on demand: the engine raising for it, alone or in a group.
+    monkeypatch.setattr(jobs, "run_part", run_part)
+    monkeypatch.setattr(jobs, "run_batch", run_batch)
+    batch_id, job_ids = _submit(pg_settings, 3)
+    for j in job_ids:
+        execute_job(j, pg_settings)
+    counts = store_counts(pg_settings, batch_id)
+    assert counts["status"] == "failed" and counts["results"] == 2
+    with session_factory(pg_settings)() as session:
+        body = service.get_batch(session, batch_id)
+    failed = next(p for p in body.parts if p.id == "P-001")
+    assert failed.status == "failed" and failed.error and "no convergence" in failed.error
+
+
+def test_a_job_that_keeps_dying_is_given_up(pg_settings: Settings) -> None:
+    batch_id, job_ids = _submit(pg_settings, 2)
+    with session_scope(session_factory(pg_settings)) as session:
+        session.execute(update(Job).where(Job.id == job_ids[0]).values(attempts=pg_settings.max_attempts))
+    assert execute_job(job_ids[0], pg_settings) == "skipped"
+    assert execute_job(job_ids[1], pg_settings) == "done"
+    counts = store_counts(pg_settings, batch_id)
+    assert counts["status"] == "failed" and counts["results"] == 1
+
+
+def test_sweeper_requeues_stale_jobs_once(pg_settings: Settings) -> None:
+    batch_id, job_ids = _submit(pg_settings, 3)
+    assert claim_next_job(pg_settings) == job_ids[0]
+    past = utcnow() - timedelta(seconds=1)
+    with session_scope(session_factory(pg_settings)) as session:
+        session.execute(update(Job).where(Job.id.in_(job_ids[:2])).values(deadline=past))
+    # In-process mode: the row going back to "queued" is the re-queue.
+    assert sweep_once(pg_settings, None) == job_ids[:2]
+    assert sweep_once(pg_settings, None) == [], "a second sweeper must not queue them again"
+    with session_factory(pg_settings)() as session:
+        assert set(session.scalars(select(Job.status).where(Job.batch_id == batch_id))) == {"queued"}
+
+    sent: list[int] = []
+    with session_scope(session_factory(pg_settings)) as session:
+        session.execute(update(Job).where(Job.id == job_ids[2]).values(status="running", deadline=past))
+
+    def publish(ids: Any) -> list[int]:
+        sent.extend(ids)
+        return []
+
+    assert sweep_once(pg_settings, publish) == [job_ids[2]]
+    assert sent == [job_ids[2]]
+
+
+def test_sweeper_closes_a_batch_whose_last_finish_was_lost(pg_settings: Settings) -> None:
+    batch_id, job_ids = _submit(pg_settings, 2)
+    for j in job_ids:
+        execute_job(j, pg_settings)
+    with session_scope(session_factory(pg_settings)) as session:
+        session.execute(update(Batch).where(Batch.id == batch_id).values(status="running"))
+    assert store_counts(pg_settings, batch_id)["status"] == "running"
+    sweep_once(pg_settings, None)
+    assert store_counts(pg_settings, batch_id)["status"] == "done"
+    with session_scope(session_factory(pg_settings)) as session:
+        assert finish_batch(session, batch_id) is False, "done is final: a second flip must not happen"
+        assert session.scalar(select(Result.id).where(Result.batch_id == batch_id).limit(1)) is not None

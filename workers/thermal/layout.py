@@ -34,7 +34,7 @@ AXES: dict[Layout, tuple[AxisKind, ...]] = {
     "block": ("trig", "trig", "trig"),
     "cylinder": ("bessel", "trig"),
 }
-MAX_MODES = {1: 120, 2: 40, 3: 20}
+MAX_MODES = {1: 120, 2: 40, 3: 14}
 _TAIL = 150
 
 

@@ -68,6 +68,7 @@ class Sub:
     dsB: FloatArray
     k: FloatArray
     heat_jump: FloatArray  # heat per volume carried by the dropped modes, delivered at once
+    heat_rate: FloatArray  # heat per volume and second a ramp drives through the dropped modes
     fn: tuple[list[str], FloatArray, FloatArray, FloatArray]  # read-out weights, see Group.functionals
 
 
@@ -149,8 +150,13 @@ class Group:
     def face_specs(self, step: Step) -> list[tuple[Face, Callable[[float], float]]]:
         """Face law and ambient (as a function of step time) of every face of the layout."""
 
+        # ambients are linear in step time, extended past the step's end so that a slope taken at
+        # the last instant is still the ramp's
+        start = step.ambient_c if step.ambient_start_c is None else step.ambient_start_c
+        rate = (step.ambient_c - start) / step.duration_s
+
         def main(t: float) -> float:
-            return float(step.ambient_at(t))
+            return start + rate * t
 
         def second(t: float) -> float:
             return main(t) if step.second_ambient_c is None else step.second_ambient_c
@@ -253,7 +259,10 @@ class Group:
         S = dsA.reshape((-1,) + (1,) * len(md)) * one
         if self.kind == "plate2":
             S = S + dsB[:, None] * modes.xi_coefficients(md[0])  # type: ignore[arg-type,operator]
-        return Sub(md, A0, K, S, sA, sB, dsA, dsB, fr.k, heat_jump, self.functionals(md))
+        # Under a ramp the dropped modes settle at once into their quasi-steady lag and from then on
+        # pass the source's share that the kept modes miss straight through the faces.
+        heat_rate = fr.rc * ((dsA + 0.5 * dsB) - self._mean(md, S))
+        return Sub(md, A0, K, S, sA, sB, dsA, dsB, fr.k, heat_jump, heat_rate, self.functionals(md))
 
     def _mean(self, md: list[modes.Modes], A: FloatArray) -> FloatArray:
         w = tensor.outer([modes.mean_weights(m) for m in md]).reshape(self.P, -1)
@@ -350,7 +359,11 @@ class Group:
             integ = np.einsum("pgM,ptM->pgt", GA, ph * t[None, :, None]) - np.einsum(
                 "pgM,ptM->pgt", GS, tensor.psi(x) * (t * t)[None, :, None]
             )
-            heat[:, c0 : c0 + step] = sub.k[:, None] * integ.sum(axis=1) + sub.heat_jump[:, None]
+            heat[:, c0 : c0 + step] = (
+                sub.k[:, None] * integ.sum(axis=1)
+                + sub.heat_jump[:, None]
+                + sub.heat_rate[:, None] * t[None, :]
+            )
         s_line = (
             sub.sA[:, None, None]
             + sub.sB[:, None, None] * off[:, :, None]

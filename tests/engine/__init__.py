@@ -1,0 +1,1 @@
+"""Engine checks against sources outside the project."""

@@ -1,0 +1,165 @@
+"""The engine against the method-of-lines reference: chained steps, ramps, radiation, h(T_s) quenches and
+temperature-dependent properties, for plates, two-face plates and bars, at every reported time.
+
+Linear cases (constant h, constant properties) are exact series in the engine: 0.1 K. Nonlinear cases
+go through frozen-coefficient substeps: 1 K. The reference is Richardson-extrapolated and its own error
+estimate must sit well inside the tolerance, so a failure points at the engine.
+
+A failure message names the point, time, both values and the difference.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pytest
+
+from tests.engine.support import differences, record, reference, run_one, worst
+from tests.reference.cases import (
+    EUROCODE_STEEL,
+    OIL_QUENCH,
+    POLYMER_QUENCH,
+    bar,
+    const_face,
+    heat_treat_schedule,
+    plate,
+)
+from workers.thermal.spec import Curve, Face, Material, PartThermal, Step
+
+# read: EN 1993-1-2 section 3.4, k = 54 - 3.33e-2 T (20-800 C), 27.3 above; cp held at 600 J/kg/K, about
+# the mean of the same standard's cp over 20-600 C (computed), density 7850 (from memory)
+K_OF_T_STEEL = Material(EUROCODE_STEEL.conductivity, EUROCODE_STEEL.density, Curve.constant(600.0))
+
+SOURCE = "computed with scipy"  # the method-of-lines reference in tests/reference/mol.py
+LINEAR_TOL = 0.1
+NONLINEAR_TOL = 1.0
+
+
+@dataclass(frozen=True)
+class Case:
+    part: PartThermal
+    steps: list[Step]
+    nonlinear: bool
+    samples: int = 120
+
+
+def linear_schedule() -> list[Step]:
+    return [
+        Step(3600.0, 860.0, const_face(150.0), ambient_start_c=400.0),
+        Step(1800.0, 860.0, const_face(150.0)),
+        Step(600.0, 60.0, const_face(2000.0)),
+        Step(3600.0, 550.0, const_face(25.0)),
+    ]
+
+
+def alternating(n: int, duration: float) -> list[Step]:
+    return [Step(duration, 60.0, const_face(500.0 if i % 2 == 0 else 3000.0)) for i in range(n)]
+
+
+FURNACE = Face(Curve.constant(20.0), 0.8)
+HEARTH = const_face(300.0)  # chosen here: contact with a hearth plate
+
+CASES = {
+    # linear: exact series per step
+    "plate, ramp and 4 chained steps": Case(plate(0.03), linear_schedule(), False),
+    "bar, ramp and 4 chained steps": Case(bar(0.04), linear_schedule(), False),
+    "two-face plate, ramp and 3 chained steps": Case(
+        plate(0.02),
+        [
+            Step(
+                3600.0,
+                860.0,
+                const_face(150.0),
+                ambient_start_c=500.0,
+                second_face=HEARTH,
+                second_ambient_c=300.0,
+            ),
+            Step(600.0, 40.0, const_face(3000.0), second_face=const_face(200.0)),
+            Step(1800.0, 200.0, const_face(50.0), second_face=const_face(50.0)),
+        ],
+        False,
+    ),
+    "plate, 20 short steps alternating h": Case(
+        plate(0.03, initial_c=860.0), alternating(20, 20.0), False, 5
+    ),
+    "bar, 20 short steps alternating h": Case(bar(0.04, initial_c=860.0), alternating(20, 20.0), False, 5),
+    # nonlinear: radiation, h(T_s), k(T) and cp(T)
+    "plate, furnace radiation with ramp": Case(
+        plate(0.03), [Step(1800.0, 860.0, FURNACE, ambient_start_c=600.0), Step(1800.0, 860.0, FURNACE)], True
+    ),
+    "bar, furnace radiation": Case(bar(0.04), [Step(3600.0, 860.0, FURNACE)], True),
+    "plate, oil quench h(Ts)": Case(
+        plate(0.03, initial_c=860.0), [Step(900.0, 60.0, Face(OIL_QUENCH))], True
+    ),
+    "bar, oil quench h(Ts)": Case(bar(0.04, initial_c=860.0), [Step(900.0, 60.0, Face(OIL_QUENCH))], True),
+    "plate, polymer quench h(Ts)": Case(
+        plate(0.015, initial_c=850.0), [Step(300.0, 40.0, Face(POLYMER_QUENCH))], True
+    ),
+    # read: EN 1993-1-2 k(T) of carbon steel, with cp held at its 20-600 C mean (no latent-heat peak)
+    "plate, k(T) only, heat then cool": Case(
+        plate(0.03, K_OF_T_STEEL),
+        [Step(3600.0, 900.0, const_face(100.0)), Step(3600.0, 20.0, const_face(50.0))],
+        True,
+    ),
+    "bar, k(T) only, oil quench h(Ts)": Case(
+        bar(0.04, K_OF_T_STEEL, initial_c=860.0), [Step(900.0, 60.0, Face(OIL_QUENCH))], True
+    ),
+    "plate, k(T) and cp(T), constant h": Case(
+        plate(0.03, EUROCODE_STEEL),
+        [Step(3600.0, 900.0, const_face(100.0)), Step(3600.0, 20.0, const_face(50.0))],
+        True,
+    ),
+    "plate, k(T) and cp(T), full schedule": Case(plate(0.03, EUROCODE_STEEL), heat_treat_schedule(), True),
+    "bar, k(T) and cp(T), full schedule": Case(bar(0.04, EUROCODE_STEEL), heat_treat_schedule(), True),
+    "two-face plate, radiant top, hearth, one-sided quench": Case(
+        plate(0.025, EUROCODE_STEEL),
+        [
+            Step(3600.0, 860.0, FURNACE, ambient_start_c=500.0, second_face=HEARTH, second_ambient_c=820.0),
+            Step(300.0, 30.0, Face(POLYMER_QUENCH), second_face=const_face(30.0), second_ambient_c=30.0),
+        ],
+        True,
+    ),
+}
+
+
+# Known gaps, tracked here so that they fail loudly once they close (strict). Within a substep the
+# engine holds k and rho*c uniform over the section (rho*c as the section's enthalpy secant). The
+# latent-heat peak of EN 1993-1-2 near 735 C is absorbed locally as a transformation front crosses the
+# section; with steep gradients (a quench) a uniform capacity cannot place it. Measured against the
+# reference: up to about 2 K with gentle exchange, 20-110 K during quenches through the peak.
+LATENT_PEAK_GAP = pytest.mark.xfail(
+    strict=True, reason="uniform properties per substep cannot place a local latent-heat peak (open)"
+)
+STEEP_K_GAP = pytest.mark.xfail(
+    strict=True, reason="uniform k per substep misses a quench's steep k(T) gradient: 33 K at the skin (open)"
+)
+KNOWN_GAPS = {
+    "plate, k(T) and cp(T), constant h",
+    "plate, k(T) and cp(T), full schedule",
+    "bar, k(T) and cp(T), full schedule",
+    "two-face plate, radiant top, hearth, one-sided quench",
+    "bar, k(T) only, oil quench h(Ts)",
+}
+
+
+@pytest.mark.parametrize(
+    "name",
+    [
+        pytest.param(n, marks=STEEP_K_GAP if "k(T) only" in n else LATENT_PEAK_GAP) if n in KNOWN_GAPS else n
+        for n in CASES
+    ],
+)
+def test_engine_matches_method_of_lines(name: str) -> None:
+    case = CASES[name]
+    tr = run_one(case.part, case.steps, samples=case.samples)
+    ref = reference(case.part, case.steps, tr.time_s, nonlinear=case.nonlinear)
+    tol = NONLINEAR_TOL if case.nonlinear else LINEAR_TOL
+    # error_k estimates the finer grid alone; the extrapolated values are at least five times closer
+    # (tests/reference/test_mol.py::test_richardson_gains_an_order), so the reference is within tol / 10
+    assert ref.error_k is not None and ref.error_k.max() < tol / 2, "reference not converged"
+    diffs = differences(tr, ref, case.part)
+    got = max(float(np.max(np.abs(d))) for d in diffs.values())
+    # computed with scipy: fine-grid method of lines (solve_ivp, BDF), Richardson-extrapolated
+    record(f"MOL: {name}", SOURCE, tol, got)
+    assert got < tol, worst(diffs, tr, ref)

@@ -1,0 +1,8 @@
+"""Make ``tests.reference`` importable however pytest is started (from the repository root or not)."""
+
+import sys
+from pathlib import Path
+
+ROOT = str(Path(__file__).resolve().parents[2])
+if ROOT not in sys.path:
+    sys.path.insert(0, ROOT)

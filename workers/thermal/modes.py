@@ -83,17 +83,47 @@ class TrigModes:
         return self.p * _Sx(self.z) + self.q * _Cx(self.z)
 
     def gram(self, other: TrigModes) -> FloatArray:
-        """<self_j, other_i> as (P, N_self, N_other)."""
+        """<self_j, other_i> as (P, N_self, N_other).
+
+        Closed forms over [0, 1] with d = a^2 - b^2 use only sin and cos of each mode's own root, so no
+        trigonometric function is evaluated on the (N, N) grid:
+        int cos a cos b = (a sin a cos b - b cos a sin b) / d,
+        int sin a sin b = (b sin a cos b - a cos a sin b) / d,
+        int sin a cos b = (a - a cos a cos b - b sin a sin b) / d.
+        Pairs closer than 1e-7 (the same mode) take the diagonal forms.
+        """
         a = self.z[:, :, None]
         b = other.z[:, None, :]
+        sa, ca = np.sin(a), np.cos(a)
+        sb, cb = np.sin(b), np.cos(b)
+        d = a * a - b * b
+        close = np.abs(a - b) < 1e-7 * np.maximum(1.0, a)
+        dd = np.where(close, 1.0, d)
         p1, q1 = self.p[:, :, None], self.q[:, :, None]
         p2, q2 = other.p[:, None, :], other.q[:, None, :]
-        Sm, Sp = _S(a - b), _S(a + b)
-        icc = 0.5 * (Sm + Sp)
-        iss = 0.5 * (Sm - Sp)
-        isc_ab = 0.5 * (_C(a + b) + _C(a - b))  # sin(a) cos(b)
-        isc_ba = 0.5 * (_C(a + b) + _C(b - a))  # sin(b) cos(a)
-        return p1 * p2 * icc + q1 * q2 * iss + q1 * p2 * isc_ab + p1 * q2 * isc_ba
+        sacb, casb = sa * cb, ca * sb
+        icc = (a * sacb - b * casb) / dd
+        out = p1 * p2 * icc
+        symmetric = not (np.any(self.q) or np.any(other.q))
+        if not symmetric:
+            iss = (b * sacb - a * casb) / dd
+            isc_ab = (a - a * ca * cb - b * sa * sb) / dd  # sin(a) cos(b)
+            isc_ba = (b - b * ca * cb - a * sa * sb) / -dd  # sin(b) cos(a)
+            out = out + q1 * q2 * iss + q1 * p2 * isc_ab + p1 * q2 * isc_ba
+        if np.any(close):
+            idx = np.nonzero(close)
+            full = (idx[0], idx[1], idx[2])
+            ab = np.broadcast_to(a, out.shape)[full] + np.broadcast_to(b, out.shape)[full]
+            pp = np.broadcast_to(p1 * p2, out.shape)[full]
+            Sp = _S(ab)
+            diag = pp * 0.5 * (1.0 + Sp)
+            if not symmetric:
+                qq = np.broadcast_to(q1 * q2, out.shape)[full]
+                mix = np.broadcast_to(q1 * p2 + p1 * q2, out.shape)[full]
+                diag = diag + qq * 0.5 * (1.0 - Sp) + mix * 0.5 * _C(ab)
+            out = np.array(out, dtype=float)
+            out[full] = diag
+        return np.asarray(out, dtype=float)
 
     def norm2(self) -> FloatArray:
         z = self.z

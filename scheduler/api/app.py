@@ -13,6 +13,7 @@ from contextlib import asynccontextmanager
 
 from fastapi import FastAPI
 
+from scheduler import web
 from scheduler.api import batches, flags, health
 from scheduler.api.errors import install_error_handlers
 from scheduler.settings import Settings, get_settings
@@ -109,4 +110,5 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     app.include_router(batches.router)
     app.include_router(flags.router)
     app.include_router(health.router)
+    app.include_router(web.router)
     return app

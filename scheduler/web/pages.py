@@ -1,0 +1,398 @@
+"""The review pages' routes: sign-in, batches, a batch, a part, dispositions, rerun, compare, report.
+
+Every page reads through the same service functions as the JSON API and checks roles as it does:
+viewers read, reviewers record dispositions, planners rerun. Pages render on the server (Jinja2); the
+only script is the part chart, drawn by the vendored uPlot from data embedded in the page.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any
+from urllib.parse import urlsplit
+
+from fastapi import APIRouter, Form, Query, Request
+from fastapi.responses import FileResponse, HTMLResponse, PlainTextResponse, RedirectResponse, Response
+from fastapi.templating import Jinja2Templates
+from sqlalchemy import select
+from sqlalchemy.orm import selectinload
+
+from models import parse_time
+from models.errors import SpecError
+from models.tables import Batch, BatchStatus, Decision, Flag, FlagStatus, Role
+from scheduler.api import service
+from scheduler.api.auth import Principal, lookup_token
+from scheduler.api.deps import SessionDep, SettingsDep
+from scheduler.api.errors import BatchNotFound, DomainError, InvalidInput, ResultNotReady
+from scheduler.web import views
+from scheduler.web.session import WebUser, clear_session, start_session
+from scheduler.web.units import UNITS_COOKIE, Units, units_from
+from workers.jobs import NOTICE  # one wording of the safety notice, shared with the results
+
+__all__ = ["router"]
+
+ROOT = Path(__file__).resolve().parent.parent
+STATIC = ROOT / "static"
+templates = Jinja2Templates(directory=str(ROOT / "templates"))
+
+templates.env.globals["notice"] = NOTICE
+templates.env.globals["decisions"] = [d.value for d in Decision]
+
+router = APIRouter(prefix="/ui", include_in_schema=False)
+
+REPORT_CHARTS = 20  # at most this many curves in a printed report; the table lists every part
+
+
+def _safe_next(target: str | None) -> str:
+    """Only a path of these pages: never redirect off-site after sign-in."""
+    if not target or not target.startswith("/ui/") or target.startswith("//") or urlsplit(target).netloc:
+        return "/ui/batches"
+    return target
+
+
+def _page(
+    request: Request, name: str, user: Principal | None, status_code: int = 200, **context: Any
+) -> HTMLResponse:
+    units = units_from(request)
+    return templates.TemplateResponse(
+        request,
+        name,
+        {"user": user, "units": units, "here": request.url.path, **context},
+        status_code=status_code,
+    )
+
+
+def _error(request: Request, user: Principal | None, exc: DomainError) -> HTMLResponse:
+    return _page(request, "error.html", user, exc.status_code, message=exc.message)
+
+
+def _batch(session: SessionDep, batch_id: int) -> Batch:
+    batch = session.get(Batch, batch_id)
+    if batch is None:
+        raise BatchNotFound(batch_id)
+    return batch
+
+
+# -- assets, sign-in, units ---------------------------------------------------------------------------
+
+
+@router.get("/static/{path:path}")
+def static(path: str) -> Response:
+    """Vendored chart library and the pages' own CSS and script, served from the installed package."""
+    file = (STATIC / path).resolve()
+    if not file.is_file() or STATIC not in file.parents:
+        return PlainTextResponse("not found", status_code=404)
+    return FileResponse(file, headers={"Cache-Control": "max-age=3600"})
+
+
+@router.get("", response_class=RedirectResponse)
+def home() -> RedirectResponse:
+    return RedirectResponse("/ui/batches", status_code=303)
+
+
+@router.get("/sign-in", response_class=HTMLResponse)
+def sign_in_form(request: Request, next: str | None = None) -> HTMLResponse:
+    return _page(request, "sign_in.html", None, next=_safe_next(next), problem=None)
+
+
+@router.post("/sign-in", response_class=HTMLResponse)
+def sign_in(
+    request: Request,
+    session: SessionDep,
+    token: Annotated[str, Form()] = "",
+    next: Annotated[str, Form()] = "/ui/batches",
+) -> Response:
+    principal = lookup_token(session, token.strip()) if token.strip() else None
+    if principal is None:
+        problem = "That token is not known. Paste the whole token (it starts with sl_)."
+        return _page(request, "sign_in.html", None, 401, next=_safe_next(next), problem=problem)
+    response = RedirectResponse(_safe_next(next), status_code=303)
+    start_session(response, token.strip())
+    return response
+
+
+@router.post("/sign-out")
+def sign_out() -> RedirectResponse:
+    response = RedirectResponse("/ui/sign-in", status_code=303)
+    clear_session(response)
+    return response
+
+
+@router.post("/units")
+def set_units(
+    temp: Annotated[str, Form()] = "C",
+    length: Annotated[str, Form()] = "mm",
+    back: Annotated[str, Form()] = "/ui/batches",
+) -> RedirectResponse:
+    units = Units.parse(f"{temp}-{length}")
+    response = RedirectResponse(_safe_next(back), status_code=303)
+    response.set_cookie(
+        UNITS_COOKIE, units.cookie(), max_age=365 * 86400, path="/ui", samesite="strict", secure=True
+    )
+    return response
+
+
+# -- batches ------------------------------------------------------------------------------------------
+
+
+@router.get("/batches", response_class=HTMLResponse)
+def batches(
+    request: Request, session: SessionDep, user: WebUser, status: str | None = None, offset: int = 0
+) -> HTMLResponse:
+    chosen = BatchStatus(status) if status in {s.value for s in BatchStatus} else None
+    page = service.list_batches(session, chosen, 50, max(0, offset))
+    ids = [b.id for b in page.items]
+    open_counts: dict[int, int] = {}
+    for (batch_id,) in session.execute(
+        select(Flag.batch_id).where(Flag.batch_id.in_(ids), Flag.status == FlagStatus.OPEN.value)
+    ):
+        open_counts[batch_id] = open_counts.get(batch_id, 0) + 1
+    return _page(
+        request,
+        "batches.html",
+        user,
+        page=page,
+        open_counts=open_counts,
+        status=chosen.value if chosen else "",
+        statuses=[s.value for s in BatchStatus],
+    )
+
+
+@router.get("/batches/{batch_id}", response_class=HTMLResponse)
+def batch_page(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
+    try:
+        batch = _batch(session, batch_id)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    spec = views.batch_spec(batch)
+    units = units_from(request)
+    return _page(
+        request,
+        "batch.html",
+        user,
+        batch=batch,
+        rows=views.part_rows(session, batch, spec, units),
+        schedule=views.schedule_rows(spec, units),
+        hold_steps=views.hold_steps(spec),
+        busy=batch.status in (BatchStatus.QUEUED, BatchStatus.RUNNING),
+        reruns=session.scalars(select(Batch.id).where(Batch.parent_id == batch.id)).all(),
+    )
+
+
+@router.get("/batches/{batch_id}/suggest", response_class=HTMLResponse)
+def suggest_page(
+    request: Request,
+    batch_id: int,
+    session: SessionDep,
+    settings: SettingsDep,
+    user: WebUser,
+    step: Annotated[str, Query(min_length=1)],
+) -> HTMLResponse:
+    try:
+        answer = service.suggest(session, settings, batch_id, step)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    return _page(request, "suggest.html", user, batch_id=batch_id, answer=answer)
+
+
+@router.get("/batches/{batch_id}/report", response_class=HTMLResponse)
+def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
+    try:
+        batch = _batch(session, batch_id)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    spec = views.batch_spec(batch)
+    units = units_from(request)
+    flags = session.scalars(
+        select(Flag)
+        .where(Flag.batch_id == batch_id)
+        .options(selectinload(Flag.dispositions))
+        .order_by(Flag.part_id, Flag.seq)
+    ).all()
+    rows = views.part_rows(session, batch, spec, units)
+    # Curves of the flagged parts only: they are what the report is read for, and a batch may be large.
+    charts = [
+        views.chart_payload(spec, r.id, service.part_result(session, batch_id, r.id), units)
+        for r in rows
+        if r.flagged
+    ][:REPORT_CHARTS]
+    return _page(
+        request,
+        "report.html",
+        user,
+        batch=batch,
+        rows=rows,
+        schedule=views.schedule_rows(spec, units),
+        flags=flags,
+        charts=charts,
+    )
+
+
+# -- a part -------------------------------------------------------------------------------------------
+
+
+@router.get("/batches/{batch_id}/parts/{part_id}", response_class=HTMLResponse)
+def part_page(
+    request: Request, batch_id: int, part_id: str, session: SessionDep, user: WebUser
+) -> HTMLResponse:
+    try:
+        batch = _batch(session, batch_id)
+        body = service.part_result(session, batch_id, part_id)
+    except ResultNotReady as exc:
+        return _page(request, "pending.html", user, 200, message=exc.message, batch_id=batch_id)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    spec = views.batch_spec(batch)
+    units = units_from(request)
+    return _page(
+        request,
+        "part.html",
+        user,
+        batch=batch,
+        part=body,
+        size=views.part_size(next(p for p in spec.parts if p.id == part_id), units),
+        chart=views.chart_payload(spec, part_id, body, units),
+        flags=views.flags_with_history(session, batch_id, part_id),
+        can_review=user.role == Role.REVIEWER,
+    )
+
+
+@router.get("/batches/{batch_id}/parts/{part_id}/trace.csv")
+def part_csv(request: Request, batch_id: int, part_id: str, session: SessionDep, user: WebUser) -> Response:
+    try:
+        body = service.part_result(session, batch_id, part_id)
+    except DomainError as exc:
+        return PlainTextResponse(exc.message, status_code=exc.status_code)
+    name = f"batch{batch_id}-{part_id}".replace('"', "")
+    return PlainTextResponse(
+        views.trace_csv(body, units_from(request)),
+        media_type="text/csv",
+        headers={"Content-Disposition": f'attachment; filename="{name}.csv"'},
+    )
+
+
+@router.post("/flags/{flag_id}/disposition")
+def disposition(
+    request: Request,
+    flag_id: int,
+    session: SessionDep,
+    user: WebUser,
+    decision: Annotated[str, Form()] = "",
+    comment: Annotated[str, Form()] = "",
+) -> Response:
+    flag = session.get(Flag, flag_id)
+    if flag is None:
+        return _page(request, "error.html", user, 404, message=f"flag {flag_id} not found")
+    if user.role != Role.REVIEWER:
+        message = f"Recording a disposition needs a reviewer token; {user.name} is a {user.role.value}."
+        return _page(request, "error.html", user, 403, message=message)
+    back = f"/ui/batches/{flag.batch_id}/parts/{flag.part_id}"
+    if decision not in {d.value for d in Decision} or not comment.strip():
+        message = "Choose a decision and write a comment (what was decided and why)."
+        return _page(request, "error.html", user, 422, message=message, back=back)
+    service.add_disposition(session, flag_id, Decision(decision), comment.strip()[:4000], user)
+    return RedirectResponse(back + "#history", status_code=303)
+
+
+# -- rerun and compare --------------------------------------------------------------------------------
+
+
+def _rerun_context(batch: Batch, values: dict[str, str] | None = None) -> dict[str, Any]:
+    spec = views.batch_spec(batch)
+    steps = [{"name": s.name, "duration": (values or {}).get(s.name, s.duration)} for s in spec.schedule]
+    return {"batch": batch, "steps": steps, "hold_steps": views.hold_steps(spec)}
+
+
+@router.get("/batches/{batch_id}/rerun", response_class=HTMLResponse)
+def rerun_form(
+    request: Request,
+    batch_id: int,
+    session: SessionDep,
+    user: WebUser,
+    step: str | None = None,
+    duration: str | None = None,
+) -> HTMLResponse:
+    try:
+        batch = _batch(session, batch_id)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    suggested = {step: duration} if step and duration else None
+    return _page(request, "rerun.html", user, problems=[], **_rerun_context(batch, suggested))
+
+
+@router.post("/batches/{batch_id}/rerun", response_class=HTMLResponse)
+async def rerun(
+    request: Request, batch_id: int, session: SessionDep, settings: SettingsDep, user: WebUser
+) -> Response:
+    try:
+        batch = _batch(session, batch_id)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    if user.role != Role.PLANNER:
+        message = f"A rerun needs a planner token; {user.name} is a {user.role.value}."
+        return _page(request, "error.html", user, 403, message=message)
+    form = await request.form()
+    spec = views.batch_spec(batch)
+    values = {s.name: str(form.get(f"duration:{s.name}", s.duration)).strip() for s in spec.schedule}
+    changed: dict[str, str] = {}
+    for step in spec.schedule:
+        try:
+            if parse_time(values[step.name]) != step.duration_s:
+                changed[step.name] = values[step.name]
+        except (SpecError, ValueError):
+            changed[step.name] = values[step.name]  # let validation name the problem
+    problems: list[tuple[str, str]] = []
+    if not changed:
+        problems = [("durations", "Change at least one step's duration.")]
+    else:
+        try:
+            new = service.rerun(session, settings, batch_id, changed, user, request.app.state.dispatch)
+        except InvalidInput as exc:
+            problems = exc.problems
+        else:
+            return RedirectResponse(f"/ui/batches/{batch_id}/compare/{new.id}", status_code=303)
+    return _page(request, "rerun.html", user, 422, problems=problems, **_rerun_context(batch, values))
+
+
+@router.get("/batches/{batch_id}/compare/{other_id}", response_class=HTMLResponse)
+def compare(
+    request: Request,
+    batch_id: int,
+    other_id: int,
+    session: SessionDep,
+    user: WebUser,
+    part: str | None = None,
+) -> HTMLResponse:
+    try:
+        result = service.compare(session, batch_id, other_id)
+        before, after = _batch(session, batch_id), _batch(session, other_id)
+    except DomainError as exc:
+        return _error(request, user, exc)
+    rows = [views.compare_row(p) for p in result.parts]
+    busy = any(r["change"] == "pending" for r in rows)
+    ready = [r["id"] for r in rows if r["change"] != "pending"]
+    shown = (
+        part
+        if part in ready
+        else next((r["id"] for r in rows if r["change"] not in ("pass", "pending")), None)
+    )
+    shown = shown or (ready[0] if ready else None)
+    overlay = None
+    if shown is not None and not busy:
+        overlay = views.overlay_payload(
+            shown,
+            service.part_result(session, batch_id, shown),
+            service.part_result(session, other_id, shown),
+            units_from(request),
+        )
+    return _page(
+        request,
+        "compare.html",
+        user,
+        before=before,
+        after=after,
+        rows=rows,
+        busy=busy,
+        overlay=overlay,
+        ready=ready,
+    )

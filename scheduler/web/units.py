@@ -1,0 +1,76 @@
+"""Display units of the review pages: degC or degF, mm or in, chosen by the viewer and kept in a cookie.
+
+Everything arrives in SI (seconds, metres, degrees Celsius); only the text and chart data a person reads
+are converted here, at the edge.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any, Literal
+
+from fastapi import Request
+
+__all__ = ["UNITS_COOKIE", "Units", "units_from"]
+
+UNITS_COOKIE = "soakline_units"
+
+TempUnit = Literal["C", "F"]
+LengthUnit = Literal["mm", "in"]
+
+
+@dataclass(frozen=True)
+class Units:
+    """The viewer's choice; ``cookie()`` and ``parse()`` round-trip it as "C-mm"."""
+
+    temp_unit: TempUnit = "C"
+    length_unit: LengthUnit = "mm"
+
+    def cookie(self) -> str:
+        return f"{self.temp_unit}-{self.length_unit}"
+
+    @classmethod
+    def parse(cls, text: str | None) -> Units:
+        temp, _, length = (text or "").partition("-")
+        return cls(
+            temp_unit="F" if temp == "F" else "C",
+            length_unit="in" if length == "in" else "mm",
+        )
+
+    @property
+    def temp_label(self) -> str:
+        return "°F" if self.temp_unit == "F" else "°C"
+
+    def temp(self, temp_c: float | None) -> float | None:
+        """A temperature (degC) in the display unit."""
+        if temp_c is None:
+            return None
+        return temp_c * 9.0 / 5.0 + 32.0 if self.temp_unit == "F" else temp_c
+
+    def delta(self, kelvin: float) -> float:
+        """A temperature difference (K) in the display unit."""
+        return kelvin * 9.0 / 5.0 if self.temp_unit == "F" else kelvin
+
+    def fmt_margin(self, check: Mapping[str, Any]) -> str:
+        """A check's signed margin: temperatures in the display unit, others as the engine wrote them."""
+        value, unit = check.get("margin_value"), check.get("margin_unit")
+        if unit == "K" and self.temp_unit == "F" and isinstance(value, int | float):
+            return f"{self.delta(float(value)):+.0f} °F"
+        return str(check.get("margin", ""))
+
+    def fmt_temp(self, temp_c: float | None) -> str:
+        value = self.temp(temp_c)
+        return "–" if value is None else f"{value:.0f} {self.temp_label}"
+
+    def fmt_length(self, metres: float | None) -> str:
+        if metres is None:
+            return "–"
+        if self.length_unit == "in":
+            return f"{metres / 0.0254:.2f} in"
+        return f"{metres * 1000.0:.0f} mm" if metres >= 0.01 else f"{metres * 1000.0:.1f} mm"
+
+
+def units_from(request: Request) -> Units:
+    """The viewer's units, defaults (degC, mm) when no cookie is set."""
+    return Units.parse(request.cookies.get(UNITS_COOKIE))

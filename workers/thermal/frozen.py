@@ -84,16 +84,7 @@ class MaterialSet:
         self.constant = all(m.is_constant for m in self.unique)
 
     def _each(self, temp_c: FloatArray, f: str) -> FloatArray:
-        out = np.empty_like(temp_c, dtype=float)
-        for i, m in enumerate(self.unique):
-            sel = self.which == i
-            if f == "k":
-                out[sel] = m.conductivity(temp_c[sel])
-            elif f == "cp":
-                out[sel] = m.specific_heat(temp_c[sel])
-            else:
-                out[sel] = enthalpy(m.specific_heat, temp_c[sel])
-        return out
+        return self.each_part(np.arange(self.which.size), temp_c, f)
 
     def each_part(self, part: NDArray[np.intp], temp_c: FloatArray, f: str) -> FloatArray:
         """Property ``f`` (k, cp or h = enthalpy per kg) of part ``part[i]`` at ``temp_c[i]``."""

@@ -11,7 +11,7 @@ from scipy.special import erfcx
 from tests.engine.support import record, run_one
 from tests.reference import analytic as an
 from tests.reference.cases import CR_MO_STEEL, OIL_QUENCH, PLAIN_CARBON, const_face, constant_steel
-from workers.thermal import eigen, modes
+from workers.thermal import eigen, modes, simulate
 from workers.thermal.spec import Face, PartThermal, Shape, ShapeKind, Step
 
 
@@ -197,3 +197,11 @@ def test_energy_balance_constant_properties(name: str) -> None:
     assert rel < 1e-6, (
         f"t = {tr.time_s[i]} s: stored {stored[i]:.6e} J/m3, heat in {tr.heat_in_j_m3[i]:.6e} J/m3"
     )
+
+
+def test_second_ambient_without_second_face_is_refused() -> None:
+    # a second ambient says nothing about how heat crosses that face: refuse it rather than ignore it
+    part = PartThermal(Shape("plate", (0.02,)), CR_MO_STEEL, 20.0)
+    step = Step(3600.0, 860.0, const_face(100.0), second_ambient_c=200.0)
+    with pytest.raises(ValueError, match="second face"):
+        simulate([part], [step])

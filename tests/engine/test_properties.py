@@ -79,6 +79,15 @@ def substep_allowance(face: Face) -> float:
     return 0.0 if face.is_linear else 0.05
 
 
+def layouts_allowance(face: Face) -> float:
+    """How far two layouts' own substep errors may part them on a nonlinear face.
+
+    Each layout is measured against the method-of-lines reference separately: in the worst examples
+    hypothesis found here each stays within 0.09 K of it, so the two may part by up to twice that.
+    """
+    return 0.0 if face.is_linear else 0.2
+
+
 @SETTINGS
 @given(
     kind=st.sampled_from(["plate", "bar"]),
@@ -93,7 +102,9 @@ def test_maximum_principle(
     part = PartThermal(Shape(kind, (size,)), mat, initial)  # type: ignore[arg-type]
     tr = run_one(part, schedule, samples=SAMPLES)
     lo, hi = span(part, schedule)
-    allow = tr.bound_k + 1e-9 * max(hi - lo, 1.0)
+    # found by hypothesis: a plate in oil overshoots its start by 1.5e-6 K (substep re-expansion)
+    substeps = max(substep_allowance(st.face) for st in schedule)
+    allow = tr.bound_k + 1e-9 * max(hi - lo, 1.0) + substeps
     for values in reported(tr):
         below, above = lo - values, values - hi
         assert np.all(below <= allow), f"{below.max():.4g} K below the lowest of initial and ambients ({lo})"
@@ -102,6 +113,15 @@ def test_maximum_principle(
 
 @SETTINGS
 @given(size=sizes, mat=materials(), initial=temps, amb=temps, face=faces(), dur=st.floats(10.0, 5000.0))
+# found by hypothesis: the two layouts part by 0.068 K at 1 s (each within 0.09 K of the reference)
+@example(
+    size=0.04035725919278245,
+    mat=Material(Curve.constant(15.0), 7850.0, Curve.constant(400.0)),
+    initial=640.0,
+    amb=0.0,
+    face=Face(OIL_QUENCH),
+    dur=10.0,
+)
 # found by hypothesis: the two layouts part by 0.015 K at 8 s (each within 0.011 K of the reference)
 @example(
     size=0.0625,
@@ -129,7 +149,7 @@ def test_plate_with_equal_faces_is_the_symmetric_plate(
     assert two.second_surface_c is not None
     # Linear faces: the two layouts differ only by series truncation (bound_k). Nonlinear faces add the
     # substep freezing, which bound_k does not cover: the two layouts choose their own substeps.
-    allow = sym.bound_k + two.bound_k + 1e-9 * max(abs(amb - initial), 1.0) + substep_allowance(face)
+    allow = sym.bound_k + two.bound_k + 1e-9 * max(abs(amb - initial), 1.0) + layouts_allowance(face)
     for got, want in (
         (two.surface_c, sym.surface_c),
         (two.second_surface_c, sym.surface_c),

@@ -49,6 +49,8 @@ def _check(parts: Sequence[PartThermal], steps: Sequence[Step], samples_per_step
     for st in steps:
         if not st.duration_s > 0:
             raise ValueError("every step needs a positive duration")
+        if st.second_ambient_c is not None and st.second_face is None:
+            raise ValueError("a second ambient needs a second face (how heat crosses it)")
     for p in parts:
         if any(not s > 0 for s in p.shape.half_sizes_m):
             raise ValueError("every part size must be positive")

@@ -1,9 +1,11 @@
 """The engine against the method-of-lines reference: chained steps, ramps, radiation, h(T_s) quenches and
 temperature-dependent properties, for plates, two-face plates and bars, at every reported time.
 
-Linear cases (constant h, constant properties) are exact series in the engine: 0.1 K. Nonlinear cases
-go through frozen-coefficient substeps: 1 K. The reference is Richardson-extrapolated and its own error
-estimate must sit well inside the tolerance, so a failure points at the engine.
+Linear cases (constant h, constant properties) are exact series in the engine: 0.1 K. Nonlinear steps
+of plates and bars are marched by the engine's implicit finite-volume scheme
+(workers/thermal/march.py): 1 K. Mixed schedules hand the profile from one to the other and back.
+The reference is Richardson-extrapolated and its own error estimate must sit well inside the
+tolerance, so a failure points at the engine.
 
 A failure message names the point, time, both values and the difference.
 """
@@ -112,6 +114,25 @@ CASES = {
     ),
     "plate, k(T) and cp(T), full schedule": Case(plate(0.03, EUROCODE_STEEL), heat_treat_schedule(), True),
     "bar, k(T) and cp(T), full schedule": Case(bar(0.04, EUROCODE_STEEL), heat_treat_schedule(), True),
+    # marched (radiation) and series (constant h) steps in turn: the profile crosses between them
+    "plate, radiant heat, constant-h quench, radiant reheat": Case(
+        plate(0.03),
+        [
+            Step(3600.0, 860.0, FURNACE, ambient_start_c=600.0),
+            Step(600.0, 60.0, const_face(2000.0)),
+            Step(1800.0, 860.0, FURNACE),
+        ],
+        True,
+    ),
+    "bar, radiant heat, constant-h quench, radiant reheat": Case(
+        bar(0.04),
+        [
+            Step(3600.0, 860.0, FURNACE, ambient_start_c=600.0),
+            Step(600.0, 60.0, const_face(2000.0)),
+            Step(1800.0, 860.0, FURNACE),
+        ],
+        True,
+    ),
     "two-face plate, radiant top, hearth, one-sided quench": Case(
         plate(0.025, EUROCODE_STEEL),
         [
@@ -123,33 +144,7 @@ CASES = {
 }
 
 
-# Known gaps, tracked here so that they fail loudly once they close (strict). Within a substep the
-# engine holds k and rho*c uniform over the section (rho*c as the section's enthalpy secant). The
-# latent-heat peak of EN 1993-1-2 near 735 C is absorbed locally as a transformation front crosses the
-# section; with steep gradients (a quench) a uniform capacity cannot place it. Measured against the
-# reference: up to about 2 K with gentle exchange, 20-110 K during quenches through the peak.
-LATENT_PEAK_GAP = pytest.mark.xfail(
-    strict=True, reason="uniform properties per substep cannot place a local latent-heat peak (open)"
-)
-STEEP_K_GAP = pytest.mark.xfail(
-    strict=True, reason="uniform k per substep misses a quench's steep k(T) gradient: 33 K at the skin (open)"
-)
-KNOWN_GAPS = {
-    "plate, k(T) and cp(T), constant h",
-    "plate, k(T) and cp(T), full schedule",
-    "bar, k(T) and cp(T), full schedule",
-    "two-face plate, radiant top, hearth, one-sided quench",
-    "bar, k(T) only, oil quench h(Ts)",
-}
-
-
-@pytest.mark.parametrize(
-    "name",
-    [
-        pytest.param(n, marks=STEEP_K_GAP if "k(T) only" in n else LATENT_PEAK_GAP) if n in KNOWN_GAPS else n
-        for n in CASES
-    ],
-)
+@pytest.mark.parametrize("name", list(CASES))
 def test_engine_matches_method_of_lines(name: str) -> None:
     case = CASES[name]
     tr = run_one(case.part, case.steps, samples=case.samples)

@@ -1,11 +1,18 @@
 """Entry point of the thermal engine: a batch of parts through one schedule, traces at common times.
 
 Parts are grouped by layout (plate, two-face plate, bar, block, short cylinder) and each group moves
-through the schedule in array operations. Linear steps (constant h, no radiation, constant properties)
-are one exact series step each. Other steps are split into substeps: h and properties are frozen over a
-substep at the average of their values at its two ends (predictor-corrector; measured order about 1.5
-in the tolerance), and a substep is shortened until no frozen coefficient changes by more than
-``Tolerance.substep`` across it.
+through the schedule in array operations, step by step:
+
+- Linear steps (constant h, no radiation, constant properties) are one exact series step each, for
+  every layout.
+- Nonlinear steps (radiation, h(T_s), k(T), cp(T)) of plates, two-face plates and bars are marched by
+  an implicit finite-volume scheme (``march``), all such parts of the batch in one flat system. The
+  profile passes between the march's nodes and the series' modes where the two kinds of step meet.
+- Nonlinear steps of blocks and short cylinders are split into substeps: h and properties are frozen
+  over a substep at the average of their values at its two ends (predictor-corrector; measured order
+  about 1.5 in the tolerance), and a substep is shortened until no frozen coefficient changes by more
+  than ``Tolerance.substep`` across it. Properties are uniform over the section within a substep, which
+  misses a latent-heat peak moving through a block in a quench (README, known limits).
 """
 
 from __future__ import annotations
@@ -15,10 +22,10 @@ from collections.abc import Sequence
 import numpy as np
 from numpy.typing import NDArray
 
-from workers.thermal import layout
+from workers.thermal import layout, march
 from workers.thermal.frozen import Frozen
 from workers.thermal.group import Group, State
-from workers.thermal.spec import FloatArray, PartThermal, Step, Tolerance, Trace
+from workers.thermal.spec import FloatArray, Material, PartThermal, Step, Tolerance, Trace
 
 _MIN_FRACTION = 1e-9  # smallest substep as a fraction of the step
 # The heat capacity of a substep is the enthalpy secant (energy-exact), so it may change five times
@@ -41,7 +48,11 @@ def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArr
     return np.array(times), np.array(index, dtype=np.int64)
 
 
-def _check(parts: Sequence[PartThermal], steps: Sequence[Step], samples_per_step: int) -> None:
+def _check(
+    parts: Sequence[PartThermal], steps: Sequence[Step], samples_per_step: int, tol: Tolerance
+) -> None:
+    if tol.intervals < 4 or tol.intervals % 2:
+        raise ValueError("Tolerance.intervals must be an even number of at least 4")
     if not steps:
         raise ValueError("the schedule has no steps")
     if samples_per_step < 1:
@@ -65,13 +76,29 @@ def simulate(
 ) -> list[Trace]:
     """Core, surface (and corner) temperatures of every part through every step."""
     tol = tol or Tolerance()
-    _check(parts, steps, samples_per_step)
+    _check(parts, steps, samples_per_step, tol)
     time_s, step_index = sample_times(steps, samples_per_step)
     two_face = any(st.second_face is not None for st in steps)
     groups: dict[tuple[layout.Layout, int], list[int]] = {}
     for i, p in enumerate(parts):
-        groups.setdefault((layout.layout_of(p, two_face), _speed_class(p)), []).append(i)
-    traces: list[Trace | None] = [None] * len(parts)
+        kind = layout.layout_of(p, two_face)
+        # marched layouts step each part on its own; series substeps are shared by a speed class
+        speed = 0 if kind in MARCHED else _speed_class(p)
+        groups.setdefault((kind, speed), []).append(i)
+    runners = [
+        (_Series(Group(kind, [parts[i] for i in idx], tol), len(steps), samples_per_step, tol), idx)
+        for (kind, _), idx in sorted(groups.items())
+    ]
+    marcher = _Marcher(tol)
+    for k, st in enumerate(steps):
+        pending = []
+        for r, _ in runners:
+            if r.g.kind in MARCHED and not r.linear(st):
+                pending.append(r)
+            else:
+                r.step(k, st, steps)
+        if pending:
+            marcher.step(pending, st, samples_per_step)
     ambient = np.concatenate(
         [[steps[0].ambient_at(0.0)]]
         + [
@@ -79,8 +106,9 @@ def simulate(
             for st in steps
         ]
     )
-    for (kind, _), idx in sorted(groups.items()):
-        out = _run(Group(kind, [parts[i] for i in idx], tol), steps, samples_per_step, tol)
+    traces: list[Trace | None] = [None] * len(parts)
+    for r, idx in runners:
+        out = r.out
         for j, i in enumerate(idx):
             traces[i] = Trace(
                 time_s=time_s,
@@ -93,7 +121,7 @@ def simulate(
                 heat_in_j_m3=out["heat"][j],
                 corner_c=out["corner"][j] if "corner" in out else None,
                 second_surface_c=out["second"][j] if "second" in out else None,
-                substeps=int(out["substeps"][0, 0]),
+                substeps=int(r.substeps[j]),
             )
     return [t for t in traces if t is not None]
 
@@ -117,44 +145,52 @@ def _span(g: Group, steps: Sequence[Step], upto: int) -> FloatArray:
     return np.asarray(stack.max(axis=0) - stack.min(axis=0), dtype=float)
 
 
-def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, FloatArray]:
-    total = 1 + n * len(steps)
-    out: dict[str, FloatArray] = {}
-    state = State(None, None, g.initial.copy(), np.zeros(g.P))
-    face_c = np.repeat(g.initial[:, None], len(g.faces), axis=1)
-    mean_c = g.initial.copy()
-    prof_c = None if g.quad_xi is None else np.repeat(g.initial[:, None], len(g.quad_xi), axis=1)
-    heat_acc = np.zeros(g.P)
-    substeps = 0
-    col = 1
+class _Series:
+    """One group through the schedule by series: one exact step per linear step, frozen-coefficient
+    substeps for the others. Holds the group's read-outs (name -> (P, samples))."""
 
-    def store(vals: dict[str, FloatArray], heat: FloatArray, cols: slice) -> None:
+    def __init__(self, g: Group, n_steps: int, n: int, tol: Tolerance) -> None:
+        self.g = g
+        self.n = n
+        self.tol = tol
+        total = 1 + n * n_steps
+        self.out: dict[str, FloatArray] = {}
+        names = ["core", "surface", "mean"]
+        names += ["corner"] if g.points.corner is not None else []
+        names += ["second"] if g.points.second is not None else []
+        for name in names:
+            self.out[name] = np.empty((g.P, total))
+            self.out[name][:, 0] = g.initial
+        self.out["heat"] = np.zeros((g.P, total))
+        self.out["bound"] = np.zeros((g.P, total))
+        self.state = State(None, None, g.initial.copy(), np.zeros(g.P))
+        self.face_c = np.repeat(g.initial[:, None], len(g.faces), axis=1)
+        self.mean_c = g.initial.copy()
+        self.prof_c = None if g.quad_xi is None else np.repeat(g.initial[:, None], len(g.quad_xi), axis=1)
+        self.heat_acc = np.zeros(g.P)
+        self.substeps = np.zeros(g.P, dtype=np.int64)
+        self.col = 1
+
+    def linear(self, st: Step) -> bool:
+        return self.g.mats.constant and all(f.is_linear for f, _ in self.g.face_specs(st))
+
+    def store(self, vals: dict[str, FloatArray], heat: FloatArray, cols: slice) -> None:
         for name, v in vals.items():
-            if name.startswith("face"):
-                continue
-            out.setdefault(name, np.empty((g.P, total)))[:, cols] = v
-        out.setdefault("heat", np.empty((g.P, total)))[:, cols] = heat
+            if name in self.out:
+                self.out[name][:, cols] = v
+        self.out["heat"][:, cols] = heat
 
-    for name in ("core", "surface", "mean"):
-        out[name] = np.empty((g.P, total))
-        out[name][:, 0] = g.initial
-    if g.points.corner is not None:
-        out["corner"] = np.empty((g.P, total))
-        out["corner"][:, 0] = g.initial
-    if g.points.second is not None:
-        out["second"] = np.empty((g.P, total))
-        out["second"][:, 0] = g.initial
-    out["heat"] = np.zeros((g.P, total))
-    out["bound"] = np.zeros((g.P, total))
-
-    for k, st in enumerate(steps):
+    def step(self, k: int, st: Step, steps: Sequence[Step]) -> None:
+        g, n, tol = self.g, self.n, self.tol
         specs = g.face_specs(st)
-        linear = g.mats.constant and all(f.is_linear for f, _ in specs)
+        linear = self.linear(st)
         dur = st.duration_s
         offsets = dur * np.arange(1, n + 1) / n
         span = _span(g, steps, k)
         rate = _ramp_rate(st)
         alpha = np.full(g.P, np.inf)
+        state, face_c, mean_c, prof_c = self.state, self.face_c, self.mean_c, self.prof_c
+        heat_acc = self.heat_acc
         t = 0.0
         dt = dur if linear else dur / n
         while t < dur * (1 - 1e-12):
@@ -188,19 +224,97 @@ def _run(g: Group, steps: Sequence[Step], n: int, tol: Tolerance) -> dict[str, F
             times = np.append(offsets[inside], t1) - t
             vals, heat = g.evaluate(sub, times)
             if inside.any():
-                cols = np.nonzero(inside)[0] + col
+                cols = np.nonzero(inside)[0] + self.col
                 sl = slice(cols[0], cols[-1] + 1)
-                store({nm: v[:, :-1] for nm, v in vals.items()}, heat[:, :-1] + heat_acc[:, None], sl)
-                out["bound"][:, sl] = g.bound(offsets[inside], span, rate, alpha)
+                self.store({nm: v[:, :-1] for nm, v in vals.items()}, heat[:, :-1] + heat_acc[:, None], sl)
+                self.out["bound"][:, sl] = g.bound(offsets[inside], span, rate, alpha)
             heat_acc = heat_acc + heat[:, -1]
             face_c, mean_c = _face_and_mean(g, {nm: v[:, -1:] for nm, v in vals.items()})
             prof_c = g.profile(vals, -1)
             state = g.advance(sub, t1 - t)
-            substeps += 1
+            self.substeps += 1
             t = t1
-        col += n
-    out["substeps"] = np.full((1, 1), float(substeps))
-    return out
+        self.state, self.face_c, self.mean_c, self.prof_c = state, face_c, mean_c, prof_c
+        self.heat_acc = heat_acc
+        self.col += n
+
+
+MARCHED = ("plate", "plate2", "bar")
+
+
+class _Marcher:
+    """Marches the nonlinear steps of the 1-D groups, all their parts at once (see ``march``).
+
+    Between consecutive marched steps the flat node temperatures (both grids) carry over; after a
+    series step they are rebuilt from the series, and a series step after a marched one starts from the
+    fine-grid profile (``State.profile``).
+    """
+
+    def __init__(self, tol: Tolerance) -> None:
+        self.tol = tol
+        self.nodes: dict[tuple[int, ...], march.Nodes] = {}
+        self.last: tuple[tuple[int, ...], FloatArray, list[State]] | None = None
+
+    def _nodes(self, runners: Sequence[_Series]) -> march.Nodes:
+        key = tuple(id(r) for r in runners)
+        if key not in self.nodes:
+            mats: list[Material] = []
+            grids = []
+            for r in runners:
+                for p, length in zip(r.g.parts, r.g.lengths[:, 0], strict=True):
+                    if p.material not in mats:
+                        mats.append(p.material)
+                    grids.append(march.PartGrid(r.g.kind, float(length), mats.index(p.material)))  # type: ignore[arg-type]
+            self.nodes[key] = march.Nodes(grids, mats, self.tol.intervals)
+        return self.nodes[key]
+
+    def step(self, runners: Sequence[_Series], st: Step, n: int) -> None:
+        nodes = self._nodes(runners)
+        key = tuple(id(r) for r in runners)
+        if (
+            self.last is not None
+            and self.last[0] == key
+            and all(r.state is s for r, s in zip(runners, self.last[2], strict=True))
+        ):
+            T0 = self.last[1]
+        else:
+            profiles = [r.g.temperatures(r.state, nodes.xi[r.g.kind]) for r in runners]  # type: ignore[index]
+            T0 = nodes.fill([row for prof in profiles for row in prof])
+        start = st.ambient_c if st.ambient_start_c is None else st.ambient_start_c
+        laws = [(st.face, start, _ramp_rate(st))]
+        if st.second_face is not None:
+            second = st.ambient_c if st.second_ambient_c is None else st.second_ambient_c
+            rate = _ramp_rate(st) if st.second_ambient_c is None else 0.0
+            laws.append((st.second_face, start if st.second_ambient_c is None else second, rate))
+        offsets = st.duration_s * np.arange(1, n + 1) / n
+        lengths = np.concatenate([r.g.lengths[:, 0] for r in runners])
+        alpha = np.concatenate([r.g.alpha_min for r in runners])
+        first = np.minimum((lengths / self.tol.intervals) ** 2 / alpha, offsets[0])
+        res = march.march(nodes, march.Laws(laws), T0, offsets, self.tol.step_k, first)
+        states = []
+        row = 0
+        for r in runners:
+            P = r.g.P
+            rows = slice(row, row + P)
+            cols = slice(r.col, r.col + n)
+            for name, v in res.values.items():
+                if name in r.out:
+                    r.out[name][:, cols] = v[rows]
+            r.out["heat"][:, cols] = res.heat[rows] + r.heat_acc[:, None]
+            r.out["bound"][:, cols] = res.error[rows]
+            r.heat_acc = r.heat_acc + res.heat[rows, -1]
+            xi = nodes.xi[r.g.kind]  # type: ignore[index]
+            prof = nodes.fine_profile(res.end, rows)
+            zero = np.zeros(P)
+            r.state = State(None, None, zero, zero.copy(), (xi, prof))
+            r.face_c = prof[:, [0 if f.xi == 0.0 else -1 for f in r.g.faces]]
+            r.mean_c = res.values["mean"][rows, -1]
+            r.prof_c = None  # only the substep scheme reads it, and 1-D groups march instead
+            r.substeps += res.steps[rows]
+            r.col += n
+            states.append(r.state)
+            row += P
+        self.last = (key, res.end, states)
 
 
 def _ramp_rate(st: Step) -> float:

@@ -87,7 +87,8 @@ class MaterialSet:
         return self.each_part(np.arange(self.which.size), temp_c, f)
 
     def each_part(self, part: NDArray[np.intp], temp_c: FloatArray, f: str) -> FloatArray:
-        """Property ``f`` (k, cp or h = enthalpy per kg) of part ``part[i]`` at ``temp_c[i]``."""
+        """Property ``f`` of part ``part[i]`` at ``temp_c[i]``: k, cp, h (enthalpy per kg, int cp dT) or
+        kint (Kirchhoff integral int k dT, W/m)."""
         out = np.empty_like(temp_c, dtype=float)
         for i, m in enumerate(self.unique):
             sel = self.which[part] == i
@@ -95,6 +96,8 @@ class MaterialSet:
                 out[sel] = m.conductivity(temp_c[sel])
             elif f == "cp":
                 out[sel] = m.specific_heat(temp_c[sel])
+            elif f == "kint":
+                out[sel] = enthalpy(m.conductivity, temp_c[sel])
             else:
                 out[sel] = enthalpy(m.specific_heat, temp_c[sel])
         return out

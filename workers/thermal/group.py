@@ -46,12 +46,17 @@ FACES: dict[layout.Layout, tuple[FaceDef, ...]] = {
 
 @dataclass
 class State:
-    """Where a group stands: modes, coefficients and the offset line sA + sB xi, all at one instant."""
+    """Where a group stands: modes, coefficients and the offset line sA + sB xi, all at one instant.
+
+    After a marched step (1-D layouts, see ``march``) the profile is held as node temperatures instead:
+    ``profile`` = (xi (n,), T (P, n)), piecewise linear between the nodes, added to the offset line.
+    """
 
     modes: list[modes.Modes] | None
     A: FloatArray | None
     sA: FloatArray
     sB: FloatArray
+    profile: tuple[FloatArray, FloatArray] | None = None
 
 
 @dataclass(frozen=True)
@@ -80,6 +85,7 @@ class Group:
         self.kinds = layout.AXES[kind]
         self.faces = FACES[kind]
         self.P = len(parts)
+        self.parts = list(parts)
         self.lengths = np.array([layout.axis_lengths(kind, p) for p in parts], dtype=float)
         self.points = layout.points(kind, self.lengths)
         self.mats = MaterialSet([p.material for p in parts])
@@ -248,6 +254,10 @@ class Group:
                 [modes.transfer(n, o) for n, o in zip(md, state.modes, strict=True)], state.A
             )
             exact_mean = exact_mean + self._mean(state.modes, state.A)
+        if state.profile is not None:
+            coef, mean = _project(md[0], *state.profile)
+            A0 = A0 + coef
+            exact_mean = exact_mean + mean
         # The dropped modes of the new expansion hold the rest of the mean; by the first reported time
         # they have decayed (the mode count sees to it), so their heat has crossed the faces.
         heat_jump = -fr.rc * (exact_mean - self._mean(md, A0))
@@ -372,6 +382,17 @@ class Group:
         vals = vals + s_line
         return {n: vals[:, i, :] for i, n in enumerate(names)}, heat
 
+    def temperatures(self, state: State, xi: FloatArray) -> FloatArray:
+        """Temperatures (P, n) of a 1-D layout at the points ``xi`` (n,)."""
+        T = state.sA[:, None] + state.sB[:, None] * xi[None, :]
+        if state.A is not None and state.modes is not None:
+            X = _spread(state.modes[0]).at(xi[None, None, :])  # (P, M, n)
+            T = T + np.einsum("pm,pmn->pn", state.A, X)
+        if state.profile is not None:
+            px, pT = state.profile
+            T = T + np.stack([np.interp(xi, px, row) for row in pT])
+        return np.asarray(T, dtype=float)
+
     def advance(self, sub: Sub, dt: float) -> State:
         x = sub.K * dt
         A = sub.A0 * np.exp(-x) - sub.S * dt * phi(x)
@@ -379,6 +400,33 @@ class Group:
 
 
 _QUAD_NODES = {1: 12, 2: 6, 3: 4}
+_PROJECT_NODES = 10  # Gauss points per grid interval when a node profile is projected on modes
+
+
+def _spread(m: modes.Modes) -> modes.Modes:
+    """The same modes with a trailing axis, so that ``at`` evaluates (P, M, n) at n points at once."""
+    if isinstance(m, modes.BesselModes):
+        return modes.BesselModes(m.z[:, :, None])
+    return modes.TrigModes(m.z[:, :, None], m.p[:, :, None], m.q[:, :, None])
+
+
+def _project(m: modes.Modes, xi: FloatArray, T: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """Coefficients (P, M) on ``m`` of the piecewise-linear profile T (P, n) on nodes ``xi``, and its
+    weighted mean (P,). Gauss-Legendre on every interval, enough points for the highest mode kept."""
+    gx, gw = np.polynomial.legendre.leggauss(_PROJECT_NODES)
+    gx, gw = 0.5 * (gx + 1.0), 0.5 * gw
+    lo, width = xi[:-1, None], np.diff(xi)[:, None]
+    xq = (lo + width * gx[None, :]).reshape(-1)
+    wq = (width * gw[None, :]).reshape(-1)
+    frac = np.broadcast_to(gx, (xi.size - 1, gx.size)).reshape(-1)
+    left = np.repeat(np.arange(xi.size - 1), gx.size)
+    Tq = T[:, left] * (1.0 - frac) + T[:, left + 1] * frac  # (P, Q)
+    if isinstance(m, modes.BesselModes):
+        wq = wq * xq
+    X = _spread(m).at(xq[None, None, :])  # (P, M, Q)
+    coef = np.einsum("pmq,pq->pm", X, Tq * wq) / m.norm2()
+    mean = (Tq * wq).sum(axis=1) / m.weight_total
+    return np.asarray(coef, dtype=float), np.asarray(mean, dtype=float)
 
 
 def _quadrature(kinds: Sequence[layout.AxisKind]) -> tuple[list[FloatArray], FloatArray]:

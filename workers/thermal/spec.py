@@ -114,10 +114,16 @@ class Tolerance:
     ``substep``: relative change allowed in a frozen coefficient (h, k, rho*c) over one substep of a
     nonlinear step. The predictor-corrector is designed second order; the measured order is about 1.5
     (tests/engine/test_convergence.py), so halving it cuts the substep error by about 2.8.
+    ``step_k``: local time-error estimate allowed per step of the finite-volume march that solves
+    nonlinear steps of plates and bars (kelvin; see ``march``).
+    ``intervals``: node spacings across a plate's half thickness, a two-face plate's thickness or a
+    bar's radius in that march (even; the grid estimate uses every second node).
     """
 
     series_k: float = 1e-2
     substep: float = 0.01
+    step_k: float = 0.05
+    intervals: int = 40
 
 
 @dataclass

@@ -1,0 +1,481 @@
+"""Nonlinear steps of plates and bars: an implicit finite-volume march, vectorised over the parts.
+
+Where a step has radiation, h(T_s) or temperature-dependent k and rho*c, no closed-form series holds
+over the section: freezing k and rho*c uniform across it (the substep scheme of ``group``) cannot place
+a latent-heat peak or a steep k(T) gradient that moves through a part during a quench. For the 1-D
+layouts (symmetric plate, two-face plate, bar) such steps are marched instead:
+
+- Space: vertex-centred finite volumes on nodes x = l * f(xi), with a node on every face (so the surface
+  temperature is a state) and the grid graded towards the exchanging faces. The state of a node is its
+  temperature; its balance is written in enthalpy, rho * int cp dT, so a latent-heat peak is conserved.
+  The flow between two nodes is the Kirchhoff difference of int k dT over their distance, exact for a
+  steady section whatever k(T).
+- Time: implicit Euler on that balance, solved by Newton's method, with local Richardson extrapolation:
+  a step is taken once whole and once in two halves; the halves' difference from the whole is the error
+  estimate that sizes the step, and 2 * halves - whole is kept (second order). Each part has its own
+  step size. Reported times between step ends are interpolated linearly.
+- Grids: every part is marched on two grids, one with every second node of the other. Reported values
+  are extrapolated, (4 fine - coarse) / 3, which removes the O(dx^2) error of the grid; |fine - coarse|
+  / 3, the fine grid's own error estimate, plus the sum of the local time-error estimates, is the
+  reported error bound.
+- Vectorised: all nodes of all parts and both grids sit in one flat array; every Newton iteration is one
+  tridiagonal (banded) solve over all of them, couplings cut between parts and grids.
+
+Symbols: ``vol`` node volume and ``cond`` face area over node distance (per unit face area for plates,
+per radian for bars); H enthalpy per volume (J/m^3); Kc the Kirchhoff integral int k dT (W/m).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+from numpy.typing import NDArray
+from scipy.linalg import solve_banded
+
+from workers.thermal.frozen import KELVIN, SIGMA, enthalpy
+from workers.thermal.spec import Face, FloatArray, Material
+
+Kind = Literal["plate", "plate2", "bar"]
+IntArray = NDArray[np.intp]
+
+GRADING = 0.8  # share of the node spacing removed at the exchanging faces (0 = uniform)
+NEWTON_TOL_K = 1e-3  # Newton stops when no node moves by more than this (quadratic: the
+# remaining error is then of order 1e-6 K)
+NEWTON_MAX = 12
+GROWTH = 2.0  # largest growth of a time step over the one before
+SHRINK = 0.2  # largest cut after a rejected time step
+TABLE_STEP_K = 0.5  # spacing of the property tables
+TABLE_RANGE_C = (-275.0, 2500.0)  # beyond, the (flat-ended) curves are extended exactly
+
+
+def node_xi(kind: Kind, intervals: int) -> FloatArray:
+    """Dimensionless node positions on [0, 1], graded towards the exchanging face(s)."""
+    s = np.linspace(0.0, 1.0, intervals + 1)
+    if kind == "plate2":
+        xi = s - GRADING * np.sin(2.0 * np.pi * s) / (2.0 * np.pi)
+    else:
+        xi = s + GRADING * np.sin(np.pi * s) / np.pi
+    xi[0], xi[-1] = 0.0, 1.0
+    return np.asarray(xi, dtype=float)
+
+
+def _axis(kind: Kind, length: float, xi: FloatArray) -> tuple[FloatArray, FloatArray, float, float]:
+    """Volumes, conductances (to the next node), outer face area and section volume of one grid."""
+    mid = np.concatenate([[0.0], 0.5 * (xi[1:] + xi[:-1]), [1.0]])
+    if kind == "bar":
+        vol = 0.5 * (mid[1:] ** 2 - mid[:-1] ** 2) * length**2
+        cond = mid[1:-1] / np.diff(xi)
+        return vol, cond, length, 0.5 * length**2
+    return np.diff(mid) * length, 1.0 / (np.diff(xi) * length), 1.0, length
+
+
+class Tables:
+    """cp, enthalpy int cp dT, k and Kirchhoff int k dT of each material on one uniform temperature grid.
+
+    Enthalpy and Kirchhoff integrals are exact at the table points (piecewise quadratic between them,
+    read linearly: error below cp' * step^2 / 8); one index computation serves all four and all
+    materials at once.
+    """
+
+    def __init__(self, materials: Sequence[Material]) -> None:
+        lo, hi = TABLE_RANGE_C
+        self.lo = lo
+        self.temps = np.arange(lo, hi + TABLE_STEP_K / 2, TABLE_STEP_K)
+        self.size = self.temps.size
+        rows = []
+        for m in materials:
+            rows.append(
+                np.stack(
+                    [
+                        m.density * enthalpy(m.specific_heat, self.temps),
+                        m.density * m.specific_heat(self.temps),
+                        enthalpy(m.conductivity, self.temps),
+                        m.conductivity(self.temps),
+                    ]
+                )
+            )
+        # (materials * size, 4): the four values of one table point side by side, one gather per node
+        self.table = np.ascontiguousarray(np.stack(rows, axis=1).reshape(4, -1).T)
+
+    def lookup(self, base: IntArray, T: FloatArray) -> FloatArray:
+        """(4, N): H, C = rho cp, Kc, k at temperatures ``T`` of nodes whose material row starts at
+        ``base`` (material index * table size)."""
+        x = (T - self.lo) / TABLE_STEP_K
+        i = np.clip(x.astype(np.intp), 0, self.size - 2)
+        f = x - i
+        j = base + i
+        lo = self.table[j]
+        hi = self.table[j + 1]
+        return np.asarray((lo + f[:, None] * (hi - lo)).T, dtype=float)
+
+
+@dataclass(frozen=True)
+class PartGrid:
+    """One part as the march sees it."""
+
+    kind: Kind
+    length: float  # half thickness, full thickness (plate2) or radius, m
+    material: int  # index into the materials given to ``Nodes``
+
+
+class Nodes:
+    """All nodes of all parts on both grids, flat; each part's fine then coarse nodes are contiguous."""
+
+    def __init__(self, parts: Sequence[PartGrid], materials: Sequence[Material], intervals: int) -> None:
+        self.P = len(parts)
+        self.tables = Tables(materials)
+        vol, cond, part, base, fine = [], [], [], [], []
+        face_node, face_part, face_area, face_law, face_fine = [], [], [], [], []
+        self.core = np.empty((2, self.P), dtype=np.intp)  # (fine, coarse) node of each reported point
+        self.surface = np.empty((2, self.P), dtype=np.intp)
+        self.second = np.full((2, self.P), -1, dtype=np.intp)
+        self.total = np.empty(self.P)
+        # a two-face plate's grid spans its whole thickness: twice the intervals of a half thickness
+        self.intervals: dict[Kind, int] = {"plate": intervals, "bar": intervals, "plate2": 2 * intervals}
+        self.xi = {k: node_xi(k, n) for k, n in self.intervals.items()}
+        self.kinds = [pg.kind for pg in parts]
+        start = 0
+        self.starts = np.empty(self.P, dtype=np.intp)
+        for p, pg in enumerate(parts):
+            self.starts[p] = start
+            full = self.intervals[pg.kind]
+            for g, n_int in enumerate((full, full // 2)):
+                xi = self.xi[pg.kind][:: 1 if g == 0 else 2]
+                v, c, area, total = _axis(pg.kind, pg.length, xi)
+                n = xi.size
+                vol.append(v)
+                cond.append(np.append(c, 0.0))
+                part.append(np.full(n, p))
+                base.append(np.full(n, pg.material * self.tables.size))
+                fine.append(np.full(n, g == 0))
+                last = start + n_int
+                if g == 0:
+                    self.total[p] = total
+                if pg.kind == "plate2":
+                    self.core[g, p], self.surface[g, p], self.second[g, p] = start + n_int // 2, start, last
+                    ends = [(start, 0), (last, 1)]
+                else:
+                    self.core[g, p], self.surface[g, p] = start, last
+                    ends = [(last, 0)]
+                for node, law in ends:
+                    face_node.append(node)
+                    face_part.append(p)
+                    face_area.append(area)
+                    face_law.append(law)
+                    face_fine.append(g == 0)
+                start += n
+        self.N = start
+        self.vol = np.concatenate(vol)
+        self.cond = np.concatenate(cond)
+        self.part = np.concatenate(part)
+        self.base = np.concatenate(base)
+        self.fine = np.concatenate(fine)
+        self.face_node = np.array(face_node, dtype=np.intp)
+        self.face_part = np.array(face_part, dtype=np.intp)
+        self.face_area = np.array(face_area, dtype=float)
+        self.face_law = np.array(face_law, dtype=np.intp)
+        self.face_fine = np.array(face_fine, dtype=bool)
+        self.two_faces = bool((self.face_law == 1).any())
+
+    def mean(self, T: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Volume-mean temperature of every part on the fine and on the coarse grid."""
+        w = T * self.vol
+        f = np.bincount(self.part, weights=np.where(self.fine, w, 0.0), minlength=self.P)
+        c = np.bincount(self.part, weights=np.where(self.fine, 0.0, w), minlength=self.P)
+        return f / self.total, c / self.total
+
+    def per_part_max(self, v: FloatArray) -> FloatArray:
+        return np.asarray(np.maximum.reduceat(v, self.starts), dtype=float)
+
+    def fill(self, profiles: Sequence[FloatArray]) -> FloatArray:
+        """Flat node temperatures from each part's profile on the fine nodes of its kind."""
+        T = np.empty(self.N)
+        for p, fine in enumerate(profiles):
+            s = self.starts[p]
+            T[s : s + fine.size] = fine
+            T[s + fine.size : s + fine.size + fine[::2].size] = fine[::2]
+        return T
+
+    def fine_profile(self, T: FloatArray, parts: slice) -> FloatArray:
+        """Fine-grid temperatures (p, n) of the parts ``parts``, which share a kind."""
+        kinds = set(self.kinds[parts])
+        assert len(kinds) == 1
+        n = self.xi[kinds.pop()].size
+        idx = self.starts[parts, None] + np.arange(n)[None, :]
+        return np.asarray(T[idx], dtype=float)
+
+
+class Laws:
+    """The step's face laws: law 0 the main face and ambient, law 1 the second face (two-face plates)."""
+
+    def __init__(self, faces: Sequence[tuple[Face, float, float]]) -> None:
+        """``faces``: (face, ambient at the step start degC, ambient rate K/s) per law."""
+        self.faces = list(faces)
+        self.slopes = [_slopes(f.htc.temp_c, f.htc.value) for f, _, _ in faces]
+
+    def flux(self, nodes: Nodes, Ts: FloatArray, t_part: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Flux into the part (W/m^2) at every face entry and its slope in the surface temperature."""
+        q = np.empty_like(Ts)
+        dq = np.empty_like(Ts)
+        for law, (face, a0, rate) in enumerate(self.faces):
+            sel = nodes.face_law == law
+            if not sel.any():
+                continue
+            ts = Ts[sel]
+            ta = a0 + rate * t_part[nodes.face_part[sel]]
+            tp = np.asarray(face.htc.temp_c, dtype=float)
+            h = np.interp(ts, tp, face.htc.value)
+            knots, s = self.slopes[law]
+            if s.size:
+                j = np.clip(np.searchsorted(knots, ts, side="right") - 1, 0, s.size - 1)
+                slope = np.where((ts >= knots[0]) & (ts < knots[-1]), s[j], 0.0)
+            else:
+                slope = np.zeros_like(ts)
+            qq = h * (ta - ts)
+            dd = slope * (ta - ts) - h
+            if face.emissivity > 0.0:
+                tk, ak = ts + KELVIN, ta + KELVIN
+                qq = qq + face.emissivity * SIGMA * (ak**4 - tk**4)
+                dd = dd - 4.0 * face.emissivity * SIGMA * tk**3
+            q[sel], dq[sel] = qq, dd
+        return q, dq
+
+
+def _slopes(temp_c: Sequence[float], value: Sequence[float]) -> tuple[FloatArray, FloatArray]:
+    x = np.asarray(temp_c, dtype=float)
+    if x.size < 2:
+        return x, np.zeros(0)
+    return x, np.diff(np.asarray(value, dtype=float)) / np.diff(x)
+
+
+@dataclass
+class Solved:
+    """One implicit solve: node temperatures and enthalpies, heat in per volume on both grids (P,)
+    each, and whether Newton converged for each part."""
+
+    T: FloatArray
+    H: FloatArray
+    heat_f: FloatArray
+    heat_c: FloatArray
+    ok: NDArray[np.bool_]
+
+
+def implicit_solve(
+    nodes: Nodes, laws: Laws, guess: FloatArray, target: FloatArray, t1: FloatArray, g: FloatArray
+) -> Solved:
+    """Solve vol * (H(T) - target) = g * net(T, t1) for T by Newton's method.
+
+    ``g`` (per part) is the step times the formula's weight: implicit Euler has target = H_n and g = h;
+    the two-step formula (BDF2) has target = a H_n - b H_(n-1) and g = c h. ``net`` is the heat flow
+    into each node (conduction from its neighbours plus its share of the faces) at the end time ``t1``.
+    """
+    gn = g[nodes.part]
+    T = guess.copy()
+    fn = nodes.face_node
+    ok = np.zeros(nodes.P, dtype=bool)
+    for _ in range(NEWTON_MAX):
+        H, C, Kc, k = nodes.tables.lookup(nodes.base, T)
+        flow = np.zeros(nodes.N)  # from node j + 1 into node j (zero across part and grid ends)
+        flow[:-1] = nodes.cond[:-1] * (Kc[1:] - Kc[:-1])
+        net = flow.copy()
+        net[1:] -= flow[:-1]
+        q, dq = laws.flux(nodes, T[fn], t1)
+        net[fn] += q * nodes.face_area
+        R = nodes.vol * (H - target) - gn * net
+        gk = gn * nodes.cond  # weight * conductance to the next node
+        ab = np.zeros((3, nodes.N))
+        ab[1] = nodes.vol * C
+        ab[1, :-1] += gk[:-1] * k[:-1]
+        ab[1, 1:] += gk[:-1] * k[1:]
+        ab[1, fn] -= gn[fn] * dq * nodes.face_area
+        ab[0, 1:] = -gk[:-1] * k[1:]  # d R_j / d T_(j+1)
+        ab[2, :-1] = -gk[:-1] * k[:-1]  # d R_(j+1) / d T_j
+        delta = solve_banded((1, 1), ab, -R, overwrite_ab=True, overwrite_b=True, check_finite=False)
+        T = T + delta
+        ok = nodes.per_part_max(np.abs(delta)) < NEWTON_TOL_K
+        if ok.all():
+            break
+    H = nodes.tables.lookup(nodes.base, T)[0]
+    q, _ = laws.flux(nodes, T[fn], t1)
+    flow_in = q * nodes.face_area * g[nodes.face_part]
+    heat_f = np.bincount(nodes.face_part, weights=np.where(nodes.face_fine, flow_in, 0.0), minlength=nodes.P)
+    heat_c = np.bincount(nodes.face_part, weights=np.where(nodes.face_fine, 0.0, flow_in), minlength=nodes.P)
+    return Solved(T, H, heat_f / nodes.total, heat_c / nodes.total, ok)
+
+
+@dataclass
+class MarchResult:
+    """Read-outs at the reported times of one step and the node temperatures at its end."""
+
+    values: dict[str, FloatArray]  # name -> (P, m): core, surface, second (two-face plates), mean
+    heat: FloatArray  # (P, m) heat in per volume since the step start
+    error: FloatArray  # (P, m) error estimate, K
+    end: FloatArray  # (N,) flat node temperatures at the step end
+    steps: NDArray[np.int64]  # (P,) time steps taken by each part
+
+
+# Local error of BDF2 over its difference from the predictor (a quadratic through T_(n-1), T_n with
+# the slope dT/dt at t_n). Taylor expansion at constant step h, with D the third time derivative:
+# corrector error +2/9 h^3 D, predictor error -1/3 h^3 D, so the corrector's error is 0.4 of the
+# difference.
+MILNE = 0.4
+
+
+def march(
+    nodes: Nodes, laws: Laws, T0: FloatArray, offsets: FloatArray, step_k: float, first_dt: FloatArray
+) -> MarchResult:
+    """March every part through one step from node temperatures ``T0``, reporting at ``offsets`` (s).
+
+    The first time step of each part is implicit Euler with Richardson extrapolation (no history yet;
+    the ambient or the face law may have jumped at the step start); the rest are variable-step BDF2 with
+    the Milne error estimate. Both are sized so that the local error estimate stays below ``step_k``.
+    """
+    P, m = nodes.P, offsets.size
+    end_t = float(offsets[-1])
+    part = nodes.part
+    tabs = nodes.tables
+    points = {"core": nodes.core, "surface": nodes.surface}
+    if nodes.two_faces:
+        points["second"] = nodes.second
+
+    def readout(T: FloatArray, heat_f: FloatArray, heat_c: FloatArray, err: FloatArray) -> FloatArray:
+        rows = []
+        space = np.zeros(P)
+        for idx in points.values():
+            f, c = T[idx[0]], T[idx[1]]
+            rows.append((4.0 * f - c) / 3.0)
+            space = np.maximum(space, np.abs(f - c) / 3.0)
+        mf, mc = nodes.mean(T)
+        rows += [(4.0 * mf - mc) / 3.0, (4.0 * heat_f - heat_c) / 3.0, err + space]
+        return np.stack(rows)  # (names, P)
+
+    names = [*points, "mean", "heat", "error"]
+    out = np.empty((len(names), P, m))
+    hmin = 1e-9 * end_t
+    taken = np.ones(P, dtype=np.int64)
+
+    # --- first step: implicit Euler, whole and in halves, extrapolated
+    H0 = tabs.lookup(nodes.base, T0)[0]
+    h = np.minimum(np.asarray(first_dt, dtype=float), end_t)
+    T = T0.copy()
+    todo = np.ones(P, dtype=bool)
+    est = np.zeros(P)
+    Q_f, Q_c = np.zeros(P), np.zeros(P)  # last step's heat in, for the BDF2 energy recursion
+    while todo.any():
+        hh = np.where(todo, h, 0.0)
+        a = implicit_solve(nodes, laws, T0, H0, hh, hh)
+        b1 = implicit_solve(nodes, laws, 0.5 * (T0 + a.T), H0, 0.5 * hh, 0.5 * hh)
+        b2 = implicit_solve(nodes, laws, a.T, b1.H, hh, 0.5 * hh)
+        e = nodes.per_part_max(np.abs(b2.T - a.T))
+        solved = a.ok & b1.ok & b2.ok
+        fine = solved & ((e <= step_k) | (hh <= hmin)) & todo
+        T = np.where(fine[part], 2.0 * b2.T - a.T, T)
+        Q_f = np.where(fine, 2.0 * (b1.heat_f + b2.heat_f) - a.heat_f, Q_f)
+        Q_c = np.where(fine, 2.0 * (b1.heat_c + b2.heat_c) - a.heat_c, Q_c)
+        est = np.where(fine, e, est)
+        cut = np.clip(0.9 * np.sqrt(step_k / np.maximum(e, 1e-300)), SHRINK, 1.0)
+        h = np.where(todo & ~fine, h * np.where(solved, cut, 0.25), h)
+        todo = todo & ~fine
+    H, C = tabs.lookup(nodes.base, T)[:2]
+    t = np.where(h >= end_t, end_t, h)
+    heat_f, heat_c = Q_f.copy(), Q_c.copy()
+    err_sum = est.copy()
+    h_prev = h.copy()
+    T_prev, H_prev = T0.copy(), H0
+    dTdt = (H - H0) / (h[part] * C)  # the step's own balance gives dT/dt at its end
+
+    r_prev = readout(T0, np.zeros(P), np.zeros(P), np.zeros(P))
+    r_now = readout(T, heat_f, heat_c, err_sum)
+    t_before = np.zeros(P)  # time of r_prev
+    nxt = _emit(out, offsets, np.zeros(P, dtype=np.intp), np.ones(P, dtype=bool), t_before, t, r_prev, r_now)
+    h = np.minimum(h * np.clip(0.9 * np.cbrt(step_k / np.maximum(est, 1e-300)), SHRINK, GROWTH), end_t)
+    while True:
+        active = nxt < m
+        if not active.any():
+            break
+        left = end_t - t
+        hh = np.where(active, np.minimum(h, left), 0.0)
+        w = hh / h_prev
+        a2 = (1.0 + w) ** 2 / (1.0 + 2.0 * w)
+        b2c = w * w / (1.0 + 2.0 * w)
+        c2 = (1.0 + w) / (1.0 + 2.0 * w)
+        hp = h_prev[part]
+        s = hh[part]
+        pred = T + s * dTdt + (s * s) * (T_prev - T + hp * dTdt) / (hp * hp)
+        target = a2[part] * H - b2c[part] * H_prev
+        sol = implicit_solve(nodes, laws, pred, target, t + hh, c2 * hh)
+        e = MILNE * nodes.per_part_max(np.abs(sol.T - pred))
+        good = sol.ok & ((e <= step_k) | (hh <= hmin)) & active
+        sel = good[part]
+        C = tabs.lookup(nodes.base, sol.T)[1]
+        new_dTdt = (sol.H - target) / (c2[part] * np.maximum(s, 1e-300) * C)
+        T_prev, H_prev = np.where(sel, T, T_prev), np.where(sel, H, H_prev)
+        T, H = np.where(sel, sol.T, T), np.where(sel, sol.H, H)
+        dTdt = np.where(sel, new_dTdt, dTdt)
+        Q_f = np.where(good, b2c * Q_f + sol.heat_f, Q_f)
+        Q_c = np.where(good, b2c * Q_c + sol.heat_c, Q_c)
+        heat_f = np.where(good, heat_f + Q_f, heat_f)
+        heat_c = np.where(good, heat_c + Q_c, heat_c)
+        err_sum = np.where(good, err_sum + e, err_sum)
+        taken += good
+        t_new = np.where(hh >= left, end_t, t + hh)
+        r_new = readout(T, heat_f, heat_c, err_sum)
+        nxt = _emit(out, offsets, nxt, good, t, t_new, r_now, r_new, (t_before, r_prev))
+        gsel = good[None, :]
+        r_prev, r_now = np.where(gsel, r_now, r_prev), np.where(gsel, r_new, r_now)
+        t_before = np.where(good, t, t_before)
+        h_prev = np.where(good, hh, h_prev)
+        t = np.where(good, t_new, t)
+        factor = np.clip(0.9 * np.cbrt(step_k / np.maximum(e, 1e-300)), SHRINK, GROWTH)
+        grown = hh * np.where(sol.ok, factor, 0.25)
+        # a step cut short to end the schedule step does not shrink the proposal
+        h = np.where(good & (hh < h), np.maximum(h, grown), grown)
+        h = np.maximum(h, hmin)
+    vals = {name: out[i] for i, name in enumerate(names)}
+    heat_out = vals.pop("heat")
+    err_out = vals.pop("error")
+    return MarchResult(vals, heat_out, err_out, T, taken)
+
+
+def _emit(
+    out: FloatArray,
+    offsets: FloatArray,
+    nxt: NDArray[np.intp],
+    good: NDArray[np.bool_],
+    t0: FloatArray,
+    t1: FloatArray,
+    r0: FloatArray,
+    r1: FloatArray,
+    before: tuple[FloatArray, FloatArray] | None = None,
+) -> NDArray[np.intp]:
+    """Write the read-outs (names, P) at every reported time in (t0, t1] of the parts that stepped:
+    the quadratic through the point ``before`` (time, read-outs) and the step's ends when given (its
+    error is of the order of the BDF2 step's own), else linear. All read-outs take the same weights, so
+    linear relations between them (heat in and mean temperature) hold at the reported times too."""
+    m = offsets.size
+    nxt = nxt.copy()
+    while True:
+        due = good & (nxt < m) & (offsets[np.minimum(nxt, m - 1)] <= t1 * (1 + 1e-12))
+        if not due.any():
+            return nxt
+        p = np.nonzero(due)[0]
+        c = nxt[p]
+        x, x0, x1 = offsets[c], t0[p], t1[p]
+        l1 = np.clip((x - x0) / np.maximum(x1 - x0, 1e-300), 0.0, 1.0)
+        w0, w1, wm = 1.0 - l1, l1, np.zeros_like(l1)
+        if before is not None:
+            xm = before[0][p]
+            q = x0 > xm
+            dm = np.where(q, (xm - x0) * (xm - x1), 1.0)
+            d0 = np.where(q, (x0 - xm) * (x0 - x1), 1.0)
+            d1 = np.where(q, (x1 - xm) * (x1 - x0), 1.0)
+            wm = np.where(q, (x - x0) * (x - x1) / dm, 0.0)
+            w0 = np.where(q, (x - xm) * (x - x1) / d0, w0)
+            w1 = np.where(q, (x - xm) * (x - x0) / d1, w1)
+            out[:, p, c] = wm * before[1][:, p] + w0 * r0[:, p] + w1 * r1[:, p]
+        else:
+            out[:, p, c] = w0 * r0[:, p] + w1 * r1[:, p]
+        nxt[p] += 1

@@ -42,11 +42,13 @@ Kind = Literal["plate", "plate2", "bar"]
 IntArray = NDArray[np.intp]
 
 GRADING = 0.8  # share of the node spacing removed at the exchanging faces (0 = uniform)
-NEWTON_TOL_K = 1e-3  # Newton stops when no node moves by more than this (quadratic: the
-# remaining error is then of order 1e-6 K)
+# Newton stops once no node moves by more than this; convergence is quadratic where the properties
+# and h are smooth, so what remains is far smaller
+NEWTON_TOL_K = 1e-3
 NEWTON_MAX = 12
 GROWTH = 2.0  # largest growth of a time step over the one before
 SHRINK = 0.2  # largest cut after a rejected time step
+COMPACT = 0.6  # once fewer than this share of the parts still step, the finished ones are dropped
 TABLE_STEP_K = 0.5  # spacing of the property tables
 TABLE_RANGE_C = (-275.0, 2500.0)  # beyond, the (flat-ended) curves are extended exactly
 
@@ -180,6 +182,34 @@ class Nodes:
         self.face_fine = np.array(face_fine, dtype=bool)
         self.two_faces = bool((self.face_law == 1).any())
 
+    def subset(self, keep: NDArray[np.bool_]) -> tuple[Nodes, NDArray[np.bool_]]:
+        """The same nodes for the parts ``keep`` only (renumbered), and which nodes were kept."""
+        node_keep = keep[self.part]
+        face_keep = keep[self.face_part]
+        part_no = np.cumsum(keep) - 1
+        node_no = np.cumsum(node_keep) - 1
+        new = object.__new__(Nodes)
+        new.P = int(keep.sum())
+        new.N = int(node_keep.sum())
+        new.tables = self.tables
+        new.intervals, new.xi = self.intervals, self.xi
+        new.kinds = [k for k, kept in zip(self.kinds, keep, strict=True) if kept]
+        new.two_faces = self.two_faces
+        for name in ("vol", "cond", "base", "fine"):
+            setattr(new, name, getattr(self, name)[node_keep])
+        new.part = part_no[self.part[node_keep]]
+        new.face_node = node_no[self.face_node[face_keep]]
+        new.face_part = part_no[self.face_part[face_keep]]
+        for name in ("face_area", "face_law", "face_fine"):
+            setattr(new, name, getattr(self, name)[face_keep])
+        new.core = node_no[self.core[:, keep]]
+        new.surface = node_no[self.surface[:, keep]]
+        second = self.second[:, keep]
+        new.second = np.where(second >= 0, node_no[np.maximum(second, 0)], -1)
+        new.total = self.total[keep]
+        new.starts = node_no[self.starts[keep]]
+        return new, node_keep
+
     def mean(self, T: FloatArray) -> tuple[FloatArray, FloatArray]:
         """Volume-mean temperature of every part on the fine and on the coarse grid."""
         w = T * self.vol
@@ -258,6 +288,7 @@ class Solved:
 
     T: FloatArray
     H: FloatArray
+    C: FloatArray  # rho cp at T
     heat_f: FloatArray
     heat_c: FloatArray
     ok: NDArray[np.bool_]
@@ -298,12 +329,12 @@ def implicit_solve(
         ok = nodes.per_part_max(np.abs(delta)) < NEWTON_TOL_K
         if ok.all():
             break
-    H = nodes.tables.lookup(nodes.base, T)[0]
+    H, C = nodes.tables.lookup(nodes.base, T)[:2]
     q, _ = laws.flux(nodes, T[fn], t1)
     flow_in = q * nodes.face_area * g[nodes.face_part]
     heat_f = np.bincount(nodes.face_part, weights=np.where(nodes.face_fine, flow_in, 0.0), minlength=nodes.P)
     heat_c = np.bincount(nodes.face_part, weights=np.where(nodes.face_fine, 0.0, flow_in), minlength=nodes.P)
-    return Solved(T, H, heat_f / nodes.total, heat_c / nodes.total, ok)
+    return Solved(T, H, C, heat_f / nodes.total, heat_c / nodes.total, ok)
 
 
 @dataclass
@@ -337,9 +368,7 @@ def march(
     end_t = float(offsets[-1])
     part = nodes.part
     tabs = nodes.tables
-    points = {"core": nodes.core, "surface": nodes.surface}
-    if nodes.two_faces:
-        points["second"] = nodes.second
+    points = _points(nodes)
 
     def readout(T: FloatArray, heat_f: FloatArray, heat_c: FloatArray, err: FloatArray) -> FloatArray:
         rows = []
@@ -379,6 +408,7 @@ def march(
         cut = np.clip(0.9 * np.sqrt(step_k / np.maximum(e, 1e-300)), SHRINK, 1.0)
         h = np.where(todo & ~fine, h * np.where(solved, cut, 0.25), h)
         todo = todo & ~fine
+        _guard(todo & ~solved & (hh <= hmin))
     H, C = tabs.lookup(nodes.base, T)[:2]
     t = np.where(h >= end_t, end_t, h)
     heat_f, heat_c = Q_f.copy(), Q_c.copy()
@@ -390,12 +420,41 @@ def march(
     r_prev = readout(T0, np.zeros(P), np.zeros(P), np.zeros(P))
     r_now = readout(T, heat_f, heat_c, err_sum)
     t_before = np.zeros(P)  # time of r_prev
-    nxt = _emit(out, offsets, np.zeros(P, dtype=np.intp), np.ones(P, dtype=bool), t_before, t, r_prev, r_now)
+    ids = np.arange(P)  # original number of each part still in the arrays
+    node_ids = np.arange(nodes.N)
+    T_end = np.empty(nodes.N)
+    nxt = _emit(
+        out, offsets, np.zeros(P, dtype=np.intp), np.ones(P, dtype=bool), t_before, t, r_prev, r_now, ids
+    )
     h = np.minimum(h * np.clip(0.9 * np.cbrt(step_k / np.maximum(est, 1e-300)), SHRINK, GROWTH), end_t)
     while True:
         active = nxt < m
         if not active.any():
             break
+        if active.sum() < COMPACT * active.size:
+            # drop the parts that are done: their end temperatures are final
+            nodes, kept = nodes.subset(active)
+            T_end[node_ids[~kept]] = T[~kept]
+            node_ids = node_ids[kept]
+            T, T_prev, H, H_prev, dTdt = T[kept], T_prev[kept], H[kept], H_prev[kept], dTdt[kept]
+            t, h, h_prev, t_before, nxt, ids = (
+                t[active],
+                h[active],
+                h_prev[active],
+                t_before[active],
+                nxt[active],
+                ids[active],
+            )
+            heat_f, heat_c, Q_f, Q_c, err_sum = (
+                heat_f[active],
+                heat_c[active],
+                Q_f[active],
+                Q_c[active],
+                err_sum[active],
+            )
+            r_prev, r_now = r_prev[:, active], r_now[:, active]
+            P, part, points = nodes.P, nodes.part, _points(nodes)
+            active = active[active]
         left = end_t - t
         hh = np.where(active, np.minimum(h, left), 0.0)
         w = hh / h_prev
@@ -409,9 +468,9 @@ def march(
         sol = implicit_solve(nodes, laws, pred, target, t + hh, c2 * hh)
         e = MILNE * nodes.per_part_max(np.abs(sol.T - pred))
         good = sol.ok & ((e <= step_k) | (hh <= hmin)) & active
+        _guard(active & ~sol.ok & (hh <= hmin))
         sel = good[part]
-        C = tabs.lookup(nodes.base, sol.T)[1]
-        new_dTdt = (sol.H - target) / (c2[part] * np.maximum(s, 1e-300) * C)
+        new_dTdt = (sol.H - target) / (c2[part] * np.maximum(s, 1e-300) * sol.C)
         T_prev, H_prev = np.where(sel, T, T_prev), np.where(sel, H, H_prev)
         T, H = np.where(sel, sol.T, T), np.where(sel, sol.H, H)
         dTdt = np.where(sel, new_dTdt, dTdt)
@@ -420,10 +479,10 @@ def march(
         heat_f = np.where(good, heat_f + Q_f, heat_f)
         heat_c = np.where(good, heat_c + Q_c, heat_c)
         err_sum = np.where(good, err_sum + e, err_sum)
-        taken += good
+        taken[ids] += good
         t_new = np.where(hh >= left, end_t, t + hh)
         r_new = readout(T, heat_f, heat_c, err_sum)
-        nxt = _emit(out, offsets, nxt, good, t, t_new, r_now, r_new, (t_before, r_prev))
+        nxt = _emit(out, offsets, nxt, good, t, t_new, r_now, r_new, ids, (t_before, r_prev))
         gsel = good[None, :]
         r_prev, r_now = np.where(gsel, r_now, r_prev), np.where(gsel, r_new, r_now)
         t_before = np.where(good, t, t_before)
@@ -434,10 +493,26 @@ def march(
         # a step cut short to end the schedule step does not shrink the proposal
         h = np.where(good & (hh < h), np.maximum(h, grown), grown)
         h = np.maximum(h, hmin)
+    T_end[node_ids] = T
     vals = {name: out[i] for i, name in enumerate(names)}
     heat_out = vals.pop("heat")
     err_out = vals.pop("error")
-    return MarchResult(vals, heat_out, err_out, T, taken)
+    return MarchResult(vals, heat_out, err_out, T_end, taken)
+
+
+def _guard(stuck: NDArray[np.bool_]) -> None:
+    """Newton cannot fail on the smallest step (the heat capacity term dominates there); if it ever
+    does, stop rather than loop."""
+    if stuck.any():
+        raise ArithmeticError("the march could not solve a time step even at the smallest step size")
+
+
+def _points(nodes: Nodes) -> dict[str, NDArray[np.intp]]:
+    """Reported points: (fine, coarse) node of each part."""
+    points = {"core": nodes.core, "surface": nodes.surface}
+    if nodes.two_faces:
+        points["second"] = nodes.second
+    return points
 
 
 def _emit(
@@ -449,6 +524,7 @@ def _emit(
     t1: FloatArray,
     r0: FloatArray,
     r1: FloatArray,
+    ids: NDArray[np.intp],
     before: tuple[FloatArray, FloatArray] | None = None,
 ) -> NDArray[np.intp]:
     """Write the read-outs (names, P) at every reported time in (t0, t1] of the parts that stepped:
@@ -475,7 +551,7 @@ def _emit(
             wm = np.where(q, (x - x0) * (x - x1) / dm, 0.0)
             w0 = np.where(q, (x - xm) * (x - x1) / d0, w0)
             w1 = np.where(q, (x - xm) * (x - x0) / d1, w1)
-            out[:, p, c] = wm * before[1][:, p] + w0 * r0[:, p] + w1 * r1[:, p]
+            out[:, ids[p], c] = wm * before[1][:, p] + w0 * r0[:, p] + w1 * r1[:, p]
         else:
-            out[:, p, c] = w0 * r0[:, p] + w1 * r1[:, p]
+            out[:, ids[p], c] = w0 * r0[:, p] + w1 * r1[:, p]
         nxt[p] += 1

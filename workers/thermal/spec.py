@@ -112,12 +112,14 @@ class Tolerance:
 
     ``series_k``: largest allowed truncation error of a series at any reported time (kelvin).
     ``substep``: relative change allowed in a frozen coefficient (h, k, rho*c) over one substep of a
-    nonlinear step. The predictor-corrector is designed second order; the measured order is about 1.5
-    (tests/engine/test_convergence.py), so halving it cuts the substep error by about 2.8.
+    nonlinear step of a block or short cylinder. The predictor-corrector is designed second order;
+    the measured order is about 1.5 (tests/engine/test_convergence.py), so halving it cuts the
+    substep error by about 2.8.
     ``step_k``: local time-error estimate allowed per step of the finite-volume march that solves
     nonlinear steps of plates and bars (kelvin; see ``march``).
-    ``intervals``: node spacings across a plate's half thickness, a two-face plate's thickness or a
-    bar's radius in that march (even; the grid estimate uses every second node).
+    ``intervals``: node spacings across a plate's half thickness or a bar's radius in that march (a
+    two-face plate gets twice as many across its whole thickness); even, since the grid estimate uses
+    every second node.
     """
 
     series_k: float = 1e-2
@@ -130,11 +132,13 @@ class Tolerance:
 class Trace:
     """Computed temperatures of one part at the batch's common sample times.
 
-    ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
-    last sample of the earlier step. ``bound_k`` is the truncation bound of the series at each sample.
-    ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
-    faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and short
-    cylinders, ``second_surface_c`` for plates in a schedule with a second face.
+        ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
+        last sample of the earlier step. ``bound_k`` is the truncation bound of the series at each sample, or
+    for a marched step (plates and bars, see ``march``) the grid estimate plus the sum of the local
+    time-error estimates since the step began.
+        ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
+        faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and short
+        cylinders, ``second_surface_c`` for plates in a schedule with a second face.
     """
 
     time_s: FloatArray
@@ -147,5 +151,5 @@ class Trace:
     heat_in_j_m3: FloatArray
     corner_c: FloatArray | None = None
     second_surface_c: FloatArray | None = None
-    substeps: int = 0
+    substeps: int = 0  # series substeps plus march time steps taken for this part
     extra: dict[str, float] = field(default_factory=dict)

@@ -83,22 +83,28 @@ def simulate(
     for i, p in enumerate(parts):
         kind = layout.layout_of(p, two_face)
         # marched layouts step each part on its own; series substeps are shared by a speed class
-        speed = 0 if kind in MARCHED else _speed_class(p)
+        speed = 0 if kind in MARCHED + SOLIDS else _speed_class(p)
         groups.setdefault((kind, speed), []).append(i)
     runners = [
         (_Series(Group(kind, [parts[i] for i in idx], tol), len(steps), samples_per_step, tol), idx)
         for (kind, _), idx in sorted(groups.items())
     ]
     marcher = _Marcher(tol)
+    # blocks and short cylinders with any nonlinear step are marched through the whole schedule
+    solid = {id(r) for r, _ in runners if r.g.kind in SOLIDS and not all(r.linear(st) for st in steps)}
     for k, st in enumerate(steps):
-        pending = []
+        lines: list[_Series] = []
+        solids: list[_Series] = []
         for r, _ in runners:
-            if r.g.kind in MARCHED and not r.linear(st):
-                pending.append(r)
+            if id(r) in solid:
+                solids.append(r)
+            elif r.g.kind in MARCHED and not r.linear(st):
+                lines.append(r)
             else:
                 r.step(k, st, steps)
-        if pending:
-            marcher.step(pending, st, samples_per_step)
+        for pending in (lines, solids):
+            if pending:
+                marcher.step(pending, st, samples_per_step)
     ambient = np.concatenate(
         [[steps[0].ambient_at(0.0)]]
         + [
@@ -240,6 +246,11 @@ class _Series:
 
 
 MARCHED = ("plate", "plate2", "bar")
+SOLIDS = ("block", "cylinder")
+SOLID_AXES: dict[str, tuple[march.Kind, ...]] = {
+    "block": ("plate", "plate", "plate"),
+    "cylinder": ("bar", "plate"),
+}
 
 
 class _Marcher:
@@ -253,17 +264,31 @@ class _Marcher:
     def __init__(self, tol: Tolerance) -> None:
         self.tol = tol
         self.nodes: dict[tuple[int, ...], march.Nodes] = {}
-        self.last: tuple[tuple[int, ...], FloatArray, list[State]] | None = None
+        # per set of runners: end node temperatures of its last marched step and the states it left
+        self.last: dict[tuple[int, ...], tuple[FloatArray, list[State]]] = {}
 
     def _nodes(self, runners: Sequence[_Series]) -> march.Nodes:
         key = tuple(id(r) for r in runners)
-        if key not in self.nodes:
-            mats: list[Material] = []
+        if key in self.nodes:
+            return self.nodes[key]
+        mats: list[Material] = []
+        for r in runners:
+            for p in r.g.parts:
+                if p.material not in mats:
+                    mats.append(p.material)
+        if runners[0].g.kind in SOLIDS:
+            solids = []
+            for r in runners:
+                axes = SOLID_AXES[r.g.kind]
+                for j, p in enumerate(r.g.parts):
+                    lengths = tuple(float(x) for x in r.g.lengths[j])
+                    surface = tuple(float(x) for x in r.g.points.surface[j])
+                    solids.append(march.SolidGrid(axes, lengths, mats.index(p.material), surface))
+            self.nodes[key] = march.Solid(solids, mats, self.tol.solid_intervals)
+        else:
             grids = []
             for r in runners:
                 for p, length in zip(r.g.parts, r.g.lengths[:, 0], strict=True):
-                    if p.material not in mats:
-                        mats.append(p.material)
                     grids.append(march.PartGrid(r.g.kind, float(length), mats.index(p.material)))  # type: ignore[arg-type]
             self.nodes[key] = march.Nodes(grids, mats, self.tol.intervals)
         return self.nodes[key]
@@ -271,12 +296,12 @@ class _Marcher:
     def step(self, runners: Sequence[_Series], st: Step, n: int) -> None:
         nodes = self._nodes(runners)
         key = tuple(id(r) for r in runners)
-        if (
-            self.last is not None
-            and self.last[0] == key
-            and all(r.state is s for r, s in zip(runners, self.last[2], strict=True))
-        ):
-            T0 = self.last[1]
+        last = self.last.get(key)
+        if last is not None and all(r.state is s for r, s in zip(runners, last[1], strict=True)):
+            T0 = last[0]
+        elif isinstance(nodes, march.Solid):
+            # marched from the first step on: the start is uniform
+            T0 = np.concatenate([r.g.initial for r in runners])[nodes.part]
         else:
             profiles = [r.g.temperatures(r.state, nodes.xi[r.g.kind]) for r in runners]  # type: ignore[index]
             T0 = nodes.fill([row for prof in profiles for row in prof])
@@ -287,9 +312,10 @@ class _Marcher:
             rate = _ramp_rate(st) if st.second_ambient_c is None else 0.0
             laws.append((st.second_face, start if st.second_ambient_c is None else second, rate))
         offsets = st.duration_s * np.arange(1, n + 1) / n
-        lengths = np.concatenate([r.g.lengths[:, 0] for r in runners])
+        lengths = np.concatenate([r.g.lengths.min(axis=1) for r in runners])
         alpha = np.concatenate([r.g.alpha_min for r in runners])
-        first = np.minimum((lengths / self.tol.intervals) ** 2 / alpha, offsets[0])
+        spacings = self.tol.solid_intervals if isinstance(nodes, march.Solid) else self.tol.intervals
+        first = np.minimum((lengths / spacings) ** 2 / alpha, offsets[0])
         res = march.march(nodes, march.Laws(laws), T0, offsets, self.tol.step_k, first)
         states = []
         row = 0
@@ -303,6 +329,12 @@ class _Marcher:
             r.out["heat"][:, cols] = res.heat[rows] + r.heat_acc[:, None]
             r.out["bound"][:, cols] = res.error[rows]
             r.heat_acc = r.heat_acc + res.heat[rows, -1]
+            r.substeps += res.steps[rows]
+            r.col += n
+            row += P
+            if isinstance(nodes, march.Solid):
+                states.append(r.state)
+                continue
             xi = nodes.xi[r.g.kind]  # type: ignore[index]
             prof = nodes.fine_profile(res.end, rows)
             zero = np.zeros(P)
@@ -310,11 +342,8 @@ class _Marcher:
             r.face_c = prof[:, [0 if f.xi == 0.0 else -1 for f in r.g.faces]]
             r.mean_c = res.values["mean"][rows, -1]
             r.prof_c = None  # only the substep scheme reads it, and 1-D groups march instead
-            r.substeps += res.steps[rows]
-            r.col += n
             states.append(r.state)
-            row += P
-        self.last = (key, res.end, states)
+        self.last[key] = (res.end, states)
 
 
 def _ramp_rate(st: Step) -> float:

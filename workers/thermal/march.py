@@ -29,11 +29,13 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from numpy.typing import NDArray
+from scipy import sparse
 from scipy.linalg import solve_banded
+from scipy.sparse import linalg as splinalg
 
 from workers.thermal.frozen import KELVIN, SIGMA, enthalpy
 from workers.thermal.spec import Face, FloatArray, Material
@@ -181,6 +183,9 @@ class Nodes:
         self.face_law = np.array(face_law, dtype=np.intp)
         self.face_fine = np.array(face_fine, dtype=bool)
         self.two_faces = bool((self.face_law == 1).any())
+        self.edges: tuple[IntArray, IntArray, FloatArray] | None = None  # multi-axis parts only
+        self.corner: IntArray | None = None
+        self.factor: Any = None  # sparse LU kept between solves (multi-axis parts)
 
     def subset(self, keep: NDArray[np.bool_]) -> tuple[Nodes, NDArray[np.bool_]]:
         """The same nodes for the parts ``keep`` only (renumbered), and which nodes were kept."""
@@ -208,6 +213,13 @@ class Nodes:
         new.second = np.where(second >= 0, node_no[np.maximum(second, 0)], -1)
         new.total = self.total[keep]
         new.starts = node_no[self.starts[keep]]
+        new.edges, new.corner, new.factor = None, None, None
+        if self.corner is not None:
+            new.corner = node_no[self.corner[:, keep]]
+        if self.edges is not None:
+            ei, ej, ec = self.edges
+            e_keep = node_keep[ei]
+            new.edges = (node_no[ei[e_keep]], node_no[ej[e_keep]], ec[e_keep])
         return new, node_keep
 
     def mean(self, T: FloatArray) -> tuple[FloatArray, FloatArray]:
@@ -236,6 +248,135 @@ class Nodes:
         n = self.xi[kinds.pop()].size
         idx = self.starts[parts, None] + np.arange(n)[None, :]
         return np.asarray(T[idx], dtype=float)
+
+
+@dataclass(frozen=True)
+class SolidGrid:
+    """One block or short cylinder as the march sees it: its axes (a plate axis or a bar's radius),
+    their lengths (half sizes, radius), its material, and the xi of its reported points."""
+
+    axes: tuple[Kind, ...]
+    lengths: tuple[float, ...]
+    material: int
+    surface: tuple[float, ...]
+
+
+class Solid(Nodes):
+    """Nodes of blocks and short cylinders: a tensor grid per part (axis 0 varying fastest), both
+    grids; volumes, conductances and face areas are products of the 1-D ones of each axis."""
+
+    def __init__(self, parts: Sequence[SolidGrid], materials: Sequence[Material], intervals: int) -> None:
+        self.P = len(parts)
+        self.tables = Tables(materials)
+        self.intervals = {"plate": intervals, "bar": intervals, "plate2": 2 * intervals}
+        self.xi = {k: node_xi(k, n) for k, n in self.intervals.items()}
+        self.kinds = ["plate"] * self.P  # not used for profiles: solids never hand one to a series
+        vol, part, base, fine, ei, ej, ec = [], [], [], [], [], [], []
+        face_node, face_part, face_area, face_fine = [], [], [], []
+        self.core = np.empty((2, self.P), dtype=np.intp)
+        self.surface = np.empty((2, self.P), dtype=np.intp)
+        self.corner = np.empty((2, self.P), dtype=np.intp)
+        self.second = np.full((2, self.P), -1, dtype=np.intp)
+        self.total = np.empty(self.P)
+        self.starts = np.empty(self.P, dtype=np.intp)
+        start = 0
+        for p, sg in enumerate(parts):
+            self.starts[p] = start
+            for g in (0, 1):
+                xis = [self.xi[k][:: 1 if g == 0 else 2] for k in sg.axes]
+                geo = [_axis(k, ell, xi) for k, ell, xi in zip(sg.axes, sg.lengths, xis, strict=True)]
+                shape = tuple(xi.size for xi in xis)
+                n = int(np.prod(shape))
+                index = start + np.arange(n).reshape(shape, order="F")
+                v = _outer([a[0] for a in geo])
+                vol.append(v.reshape(-1, order="F"))
+                for a in range(len(geo)):
+                    others = [geo[b][0] for b in range(len(geo))]
+                    others[a] = np.append(geo[a][1], 0.0)  # conductance to the next node on axis a
+                    c = _outer(others)
+                    lo = [slice(None)] * len(shape)
+                    hi = [slice(None)] * len(shape)
+                    lo[a], hi[a] = slice(0, -1), slice(1, None)
+                    ei.append(index[tuple(lo)].reshape(-1))
+                    ej.append(index[tuple(hi)].reshape(-1))
+                    ec.append(c[tuple(lo)].reshape(-1))
+                    face = [geo[b][0] for b in range(len(geo))]
+                    face[a] = np.append(np.zeros(shape[a] - 1), geo[a][2])  # face area at xi = 1
+                    fa = _outer(face)
+                    end = [slice(None)] * len(shape)
+                    end[a] = slice(-1, None)
+                    face_node.append(index[tuple(end)].reshape(-1))
+                    face_area.append(fa[tuple(end)].reshape(-1))
+                    face_part.append(np.full(face_node[-1].size, p))
+                    face_fine.append(np.full(face_node[-1].size, g == 0))
+                part.append(np.full(n, p))
+                base.append(np.full(n, sg.material * self.tables.size))
+                fine.append(np.full(n, g == 0))
+                if g == 0:
+                    self.total[p] = float(np.prod([a[3] for a in geo]))
+
+                self.core[g, p] = _node_at(index, xis, [0.0] * len(shape))
+                self.surface[g, p] = _node_at(index, xis, sg.surface)
+                self.corner[g, p] = _node_at(index, xis, [1.0] * len(shape))
+                start += n
+        self.N = start
+        self.vol = np.concatenate(vol)
+        self.part = np.concatenate(part)
+        self.base = np.concatenate(base)
+        self.fine = np.concatenate(fine)
+        self.cond = np.zeros(self.N)
+        self.face_node = np.concatenate(face_node)
+        self.face_part = np.concatenate(face_part)
+        self.face_area = np.concatenate(face_area)
+        self.face_law = np.zeros(self.face_node.size, dtype=np.intp)
+        self.face_fine = np.concatenate(face_fine)
+        self.two_faces = False
+        self.edges = (np.concatenate(ei), np.concatenate(ej), np.concatenate(ec))
+        self.factor = None
+
+
+GMRES_ITERATIONS = 20  # more than this with the kept factorization, and it is refreshed
+
+
+def _sparse_solve(nodes: Nodes, J: sparse.csc_matrix, rhs: FloatArray) -> FloatArray:
+    """Solve J x = rhs: GMRES preconditioned with an LU factorization kept from an earlier Jacobian
+    (the Jacobian changes slowly from one Newton iteration and time step to the next); a fresh LU when
+    that no longer converges quickly."""
+    lu = nodes.factor
+    if lu is not None:
+        count = [0]
+
+        def tick(_: float) -> None:
+            count[0] += 1
+
+        pre = splinalg.LinearOperator(J.shape, matvec=lu.solve)
+        x, info = splinalg.gmres(
+            J,
+            rhs,
+            rtol=1e-5,
+            atol=0.0,
+            restart=GMRES_ITERATIONS,
+            maxiter=1,
+            M=pre,
+            callback=tick,
+            callback_type="pr_norm",
+        )
+        if info == 0:
+            return np.asarray(x, dtype=float)
+    nodes.factor = splinalg.splu(J, permc_spec="MMD_AT_PLUS_A")
+    return np.asarray(nodes.factor.solve(rhs), dtype=float)
+
+
+def _node_at(index: NDArray[np.intp], xis: Sequence[FloatArray], target: Sequence[float]) -> int:
+    """Flat number of the node nearest ``target`` (xi per axis)."""
+    return int(index[tuple(int(np.argmin(np.abs(x - t))) for x, t in zip(xis, target, strict=True))])
+
+
+def _outer(vecs: Sequence[FloatArray]) -> FloatArray:
+    out = np.asarray(vecs[0], dtype=float)
+    for v in vecs[1:]:
+        out = np.multiply.outer(out, v)
+    return out
 
 
 class Laws:
@@ -302,29 +443,55 @@ def implicit_solve(
     ``g`` (per part) is the step times the formula's weight: implicit Euler has target = H_n and g = h;
     the two-step formula (BDF2) has target = a H_n - b H_(n-1) and g = c h. ``net`` is the heat flow
     into each node (conduction from its neighbours plus its share of the faces) at the end time ``t1``.
+    Plates and bars have tridiagonal Jacobians (one banded solve); blocks and short cylinders a sparse
+    one (one sparse LU per iteration, every part a separate block of it).
     """
     gn = g[nodes.part]
     T = guess.copy()
     fn = nodes.face_node
+    N = nodes.N
     ok = np.zeros(nodes.P, dtype=bool)
     for _ in range(NEWTON_MAX):
         H, C, Kc, k = nodes.tables.lookup(nodes.base, T)
-        flow = np.zeros(nodes.N)  # from node j + 1 into node j (zero across part and grid ends)
-        flow[:-1] = nodes.cond[:-1] * (Kc[1:] - Kc[:-1])
-        net = flow.copy()
-        net[1:] -= flow[:-1]
         q, dq = laws.flux(nodes, T[fn], t1)
-        net[fn] += q * nodes.face_area
-        R = nodes.vol * (H - target) - gn * net
-        gk = gn * nodes.cond  # weight * conductance to the next node
-        ab = np.zeros((3, nodes.N))
-        ab[1] = nodes.vol * C
-        ab[1, :-1] += gk[:-1] * k[:-1]
-        ab[1, 1:] += gk[:-1] * k[1:]
-        ab[1, fn] -= gn[fn] * dq * nodes.face_area
-        ab[0, 1:] = -gk[:-1] * k[1:]  # d R_j / d T_(j+1)
-        ab[2, :-1] = -gk[:-1] * k[:-1]  # d R_(j+1) / d T_j
-        delta = solve_banded((1, 1), ab, -R, overwrite_ab=True, overwrite_b=True, check_finite=False)
+        face_diag = np.bincount(fn, weights=-gn[fn] * dq * nodes.face_area, minlength=N)
+        if nodes.edges is None:
+            flow = np.zeros(N)  # from node j + 1 into node j (zero across part and grid ends)
+            flow[:-1] = nodes.cond[:-1] * (Kc[1:] - Kc[:-1])
+            net = flow.copy()
+            net[1:] -= flow[:-1]
+            net += np.bincount(fn, weights=q * nodes.face_area, minlength=N)
+            R = nodes.vol * (H - target) - gn * net
+            gk = gn * nodes.cond  # weight * conductance to the next node
+            ab = np.zeros((3, N))
+            ab[1] = nodes.vol * C + face_diag
+            ab[1, :-1] += gk[:-1] * k[:-1]
+            ab[1, 1:] += gk[:-1] * k[1:]
+            ab[0, 1:] = -gk[:-1] * k[1:]  # d R_j / d T_(j+1)
+            ab[2, :-1] = -gk[:-1] * k[:-1]  # d R_(j+1) / d T_j
+            delta = solve_banded((1, 1), ab, -R, overwrite_ab=True, overwrite_b=True, check_finite=False)
+        else:
+            ei, ej, ec = nodes.edges
+            eflow = ec * (Kc[ej] - Kc[ei])  # from node ej into node ei
+            net = np.asarray(
+                np.bincount(ei, weights=eflow, minlength=N)
+                - np.bincount(ej, weights=eflow, minlength=N)
+                + np.bincount(fn, weights=q * nodes.face_area, minlength=N),
+                dtype=float,
+            )
+            R = nodes.vol * (H - target) - gn * net
+            ge = gn[ei] * ec
+            diag = (
+                nodes.vol * C
+                + face_diag
+                + np.bincount(ei, weights=ge * k[ei], minlength=N)
+                + np.bincount(ej, weights=ge * k[ej], minlength=N)
+            )
+            rows = np.concatenate([ei, ej, np.arange(N)])
+            cols = np.concatenate([ej, ei, np.arange(N)])
+            vals = np.concatenate([-ge * k[ej], -ge * k[ei], diag])
+            J = sparse.csc_matrix((vals, (rows, cols)), shape=(N, N))
+            delta = _sparse_solve(nodes, J, -R)
         T = T + delta
         ok = nodes.per_part_max(np.abs(delta)) < NEWTON_TOL_K
         if ok.all():
@@ -512,6 +679,8 @@ def _points(nodes: Nodes) -> dict[str, NDArray[np.intp]]:
     points = {"core": nodes.core, "surface": nodes.surface}
     if nodes.two_faces:
         points["second"] = nodes.second
+    if nodes.corner is not None:
+        points["corner"] = nodes.corner
     return points
 
 

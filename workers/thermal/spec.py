@@ -119,13 +119,14 @@ class Tolerance:
     nonlinear steps of plates and bars (kelvin; see ``march``).
     ``intervals``: node spacings across a plate's half thickness or a bar's radius in that march (a
     two-face plate gets twice as many across its whole thickness); even, since the grid estimate uses
-    every second node.
+    every second node. ``solid_intervals``: the same along every axis of a block or short cylinder.
     """
 
     series_k: float = 1e-2
     substep: float = 0.01
     step_k: float = 0.05
     intervals: int = 40
+    solid_intervals: int = 12
 
 
 @dataclass

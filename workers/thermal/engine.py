@@ -3,16 +3,16 @@
 Parts are grouped by layout (plate, two-face plate, bar, block, short cylinder) and each group moves
 through the schedule in array operations, step by step:
 
-- Linear steps (constant h, no radiation, constant properties) are one exact series step each, for
-  every layout.
+- Linear steps (constant h, no radiation, constant properties) are one exact series step each.
 - Nonlinear steps (radiation, h(T_s), k(T), cp(T)) of plates, two-face plates and bars are marched by
   an implicit finite-volume scheme (``march``), all such parts of the batch in one flat system. The
   profile passes between the march's nodes and the series' modes where the two kinds of step meet.
-- Nonlinear steps of blocks and short cylinders are split into substeps: h and properties are frozen
-  over a substep at the average of their values at its two ends (predictor-corrector; measured order
-  about 1.5 in the tolerance), and a substep is shortened until no frozen coefficient changes by more
-  than ``Tolerance.substep`` across it. Properties are uniform over the section within a substep, which
-  misses a latent-heat peak moving through a block in a quench (README, known limits).
+- Blocks and short cylinders with any nonlinear step are marched on tensor grids through the whole
+  schedule (their linear steps too), so no 3-D profile has to cross between nodes and modes.
+
+Earlier versions froze h and the properties, uniform over the section, over substeps and chained
+series: that cannot place a latent-heat peak or a steep k(T) gradient moving through a part in a
+quench (20-120 K off the reference), which is why nonlinear steps are marched.
 """
 
 from __future__ import annotations
@@ -23,16 +23,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from workers.thermal import layout, march
-from workers.thermal.frozen import Frozen
 from workers.thermal.group import Group, State
 from workers.thermal.spec import FloatArray, Material, PartThermal, Step, Tolerance, Trace
-
-_MIN_FRACTION = 1e-9  # smallest substep as a fraction of the step
-# The heat capacity of a substep is the enthalpy secant (energy-exact), so it may change five times
-# further than h or k before a substep is cut (tested: same error against the reference, far fewer
-# substeps).
-RC_WEIGHT = 0.2
-GROWTH = 2.0  # largest growth of a substep over the one before
 
 
 def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArray, NDArray[np.int64]]:
@@ -51,8 +43,10 @@ def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArr
 def _check(
     parts: Sequence[PartThermal], steps: Sequence[Step], samples_per_step: int, tol: Tolerance
 ) -> None:
-    if tol.intervals < 4 or tol.intervals % 2:
-        raise ValueError("Tolerance.intervals must be an even number of at least 4")
+    for name in ("intervals", "solid_intervals"):
+        n = getattr(tol, name)
+        if n < 4 or n % 2:
+            raise ValueError(f"Tolerance.{name} must be an even number of at least 4")
     if not steps:
         raise ValueError("the schedule has no steps")
     if samples_per_step < 1:
@@ -79,15 +73,12 @@ def simulate(
     _check(parts, steps, samples_per_step, tol)
     time_s, step_index = sample_times(steps, samples_per_step)
     two_face = any(st.second_face is not None for st in steps)
-    groups: dict[tuple[layout.Layout, int], list[int]] = {}
+    groups: dict[layout.Layout, list[int]] = {}
     for i, p in enumerate(parts):
-        kind = layout.layout_of(p, two_face)
-        # marched layouts step each part on its own; series substeps are shared by a speed class
-        speed = 0 if kind in MARCHED + SOLIDS else _speed_class(p)
-        groups.setdefault((kind, speed), []).append(i)
+        groups.setdefault(layout.layout_of(p, two_face), []).append(i)
     runners = [
         (_Series(Group(kind, [parts[i] for i in idx], tol), len(steps), samples_per_step, tol), idx)
-        for (kind, _), idx in sorted(groups.items())
+        for kind, idx in sorted(groups.items())
     ]
     marcher = _Marcher(tol)
     # blocks and short cylinders with any nonlinear step are marched through the whole schedule
@@ -132,14 +123,6 @@ def simulate(
     return [t for t in traces if t is not None]
 
 
-def _speed_class(p: PartThermal) -> int:
-    """Parts whose thermal time constants are within a factor of 4 share substeps (and their cost)."""
-    m = p.material
-    alpha = float(m.conductivity(20.0)) / (m.density * float(m.specific_heat(20.0)))
-    tc = min(p.shape.half_sizes_m) ** 2 / alpha
-    return int(np.floor(np.log(max(tc, 1e-9)) / np.log(4.0)))
-
-
 def _span(g: Group, steps: Sequence[Step], upto: int) -> FloatArray:
     """Largest temperature difference any profile can hold at the start of step ``upto`` (per part)."""
     temps = [g.initial]
@@ -152,8 +135,8 @@ def _span(g: Group, steps: Sequence[Step], upto: int) -> FloatArray:
 
 
 class _Series:
-    """One group through the schedule by series: one exact step per linear step, frozen-coefficient
-    substeps for the others. Holds the group's read-outs (name -> (P, samples))."""
+    """One group of parts through the schedule: its linear steps by exact series (``step``), the others
+    handed to the march. Holds the group's read-outs (name -> (P, samples)) and its series state."""
 
     def __init__(self, g: Group, n_steps: int, n: int, tol: Tolerance) -> None:
         self.g = g
@@ -170,9 +153,6 @@ class _Series:
         self.out["heat"] = np.zeros((g.P, total))
         self.out["bound"] = np.zeros((g.P, total))
         self.state = State(None, None, g.initial.copy(), np.zeros(g.P))
-        self.face_c = np.repeat(g.initial[:, None], len(g.faces), axis=1)
-        self.mean_c = g.initial.copy()
-        self.prof_c = None if g.quad_xi is None else np.repeat(g.initial[:, None], len(g.quad_xi), axis=1)
         self.heat_acc = np.zeros(g.P)
         self.substeps = np.zeros(g.P, dtype=np.int64)
         self.col = 1
@@ -187,61 +167,25 @@ class _Series:
         self.out["heat"][:, cols] = heat
 
     def step(self, k: int, st: Step, steps: Sequence[Step]) -> None:
-        g, n, tol = self.g, self.n, self.tol
+        """One linear step: a single exact series step, read out at every reported time."""
+        g, n = self.g, self.n
+        assert self.linear(st)
         specs = g.face_specs(st)
-        linear = self.linear(st)
-        dur = st.duration_s
-        offsets = dur * np.arange(1, n + 1) / n
+        offsets = st.duration_s * np.arange(1, n + 1) / n
         span = _span(g, steps, k)
         rate = _ramp_rate(st)
-        alpha = np.full(g.P, np.inf)
-        state, face_c, mean_c, prof_c = self.state, self.face_c, self.mean_c, self.prof_c
-        heat_acc = self.heat_acc
-        t = 0.0
-        dt = dur if linear else dur / n
-        while t < dur * (1 - 1e-12):
-            t1 = min(dur, t + dt)
-            if dur - t1 < _MIN_FRACTION * dur:
-                t1 = dur
-            f0 = g.freeze(specs, face_c, mean_c, t)
-            if prof_c is not None:
-                f0 = Frozen(f0.h, f0.k, g.capacity(prof_c))
-            alpha = np.minimum(alpha, f0.k / f0.rc)
-            # fewer modes are needed as the step goes on and the high ones die out
-            g.choose_modes(max(t, offsets[0]), float(span.max()), rate, alpha, None if linear else t1 - t)
-            sub = g.prepare(state, f0, specs, t)
-            if not linear:
-                vals1 = g.evaluate(sub, np.array([t1 - t]))[0]
-                face1, mean1 = _face_and_mean(g, vals1)
-                prof1 = g.profile(vals1, 0)
-                f1 = g.freeze(specs, face1, mean1, t1)
-                if prof1 is not None:
-                    f1 = Frozen(f1.h, f1.k, g.capacity(prof1))
-                change = f0.change(f1, RC_WEIGHT)
-                if change > tol.substep and (t1 - t) > _MIN_FRACTION * dur * 10:
-                    dt = (t1 - t) * max(0.2, 0.8 * tol.substep / change)
-                    continue
-                rc = g.mats.secant_capacity(mean_c, mean1) if prof_c is None else g.capacity(prof_c, prof1)
-                avg = Frozen(0.5 * (f0.h + f1.h), 0.5 * (f0.k + f1.k), rc)
-                alpha = np.minimum(alpha, avg.k / avg.rc)
-                sub = g.prepare(state, avg, specs, t)
-                dt = (t1 - t) * min(GROWTH, 0.8 * tol.substep / max(change, 1e-12))
-            inside = (offsets > t + 1e-12 * dur) & (offsets <= t1 + 1e-12 * dur)
-            times = np.append(offsets[inside], t1) - t
-            vals, heat = g.evaluate(sub, times)
-            if inside.any():
-                cols = np.nonzero(inside)[0] + self.col
-                sl = slice(cols[0], cols[-1] + 1)
-                self.store({nm: v[:, :-1] for nm, v in vals.items()}, heat[:, :-1] + heat_acc[:, None], sl)
-                self.out["bound"][:, sl] = g.bound(offsets[inside], span, rate, alpha)
-            heat_acc = heat_acc + heat[:, -1]
-            face_c, mean_c = _face_and_mean(g, {nm: v[:, -1:] for nm, v in vals.items()})
-            prof_c = g.profile(vals, -1)
-            state = g.advance(sub, t1 - t)
-            self.substeps += 1
-            t = t1
-        self.state, self.face_c, self.mean_c, self.prof_c = state, face_c, mean_c, prof_c
-        self.heat_acc = heat_acc
+        # h, k and rho*c are constant here: any temperature reads them
+        fr = g.freeze(specs, np.repeat(g.initial[:, None], len(g.faces), axis=1), g.initial, 0.0)
+        alpha = fr.k / fr.rc
+        g.choose_modes(offsets[0], float(span.max()), rate, alpha)
+        sub = g.prepare(self.state, fr, specs, 0.0)
+        vals, heat = g.evaluate(sub, offsets)
+        cols = slice(self.col, self.col + n)
+        self.store(vals, heat + self.heat_acc[:, None], cols)
+        self.out["bound"][:, cols] = g.bound(offsets, span, rate, alpha)
+        self.heat_acc = self.heat_acc + heat[:, -1]
+        self.state = g.advance(sub, st.duration_s)
+        self.substeps += 1
         self.col += n
 
 
@@ -283,8 +227,9 @@ class _Marcher:
                 for j, p in enumerate(r.g.parts):
                     lengths = tuple(float(x) for x in r.g.lengths[j])
                     surface = tuple(float(x) for x in r.g.points.surface[j])
-                    solids.append(march.SolidGrid(axes, lengths, mats.index(p.material), surface))
-            self.nodes[key] = march.Solid(solids, mats, self.tol.solid_intervals)
+                    spacings = self.tol.solid_intervals * (2 if len(axes) == 2 else 1)  # cylinders: twice
+                    solids.append(march.SolidGrid(axes, lengths, mats.index(p.material), surface, spacings))
+            self.nodes[key] = march.Solid(solids, mats)
         else:
             grids = []
             for r in runners:
@@ -339,9 +284,6 @@ class _Marcher:
             prof = nodes.fine_profile(res.end, rows)
             zero = np.zeros(P)
             r.state = State(None, None, zero, zero.copy(), (xi, prof))
-            r.face_c = prof[:, [0 if f.xi == 0.0 else -1 for f in r.g.faces]]
-            r.mean_c = res.values["mean"][rows, -1]
-            r.prof_c = None  # only the substep scheme reads it, and 1-D groups march instead
             states.append(r.state)
         self.last[key] = (res.end, states)
 
@@ -351,9 +293,3 @@ def _ramp_rate(st: Step) -> float:
     if st.ambient_start_c is None:
         return 0.0
     return (st.ambient_c - st.ambient_start_c) / st.duration_s
-
-
-def _face_and_mean(g: Group, vals: dict[str, FloatArray]) -> tuple[FloatArray, FloatArray]:
-    """Face-average and mean temperatures from a one-time read-out."""
-    faces = np.stack([vals[f"face{i}"][:, 0] for i in range(len(g.faces))], axis=1)
-    return faces, vals["mean"][:, 0]

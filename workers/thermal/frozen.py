@@ -1,10 +1,10 @@
-"""Coefficients frozen over one substep: face heat transfer coefficients and material properties.
+"""Coefficients of a series step and the property integrals the march tabulates.
 
-Radiation is folded into an equivalent coefficient, exact at the freezing instant:
+A series step needs h, k and rho*c constant over the step; ``face_coefficient`` also folds radiation
+into an equivalent coefficient, exact at the instant it is taken:
 eps sigma (T_s^4 - T_a^4) = h_r (T_s - T_a) with h_r = eps sigma (T_s^2 + T_a^2)(T_s + T_a), kelvin.
-Properties are evaluated at the volume mean temperature; over a substep the heat capacity is the
-enthalpy secant between the start and end means, so a latent-heat peak that is crossed inside one
-substep is still counted in full.
+``enthalpy`` integrates a piecewise-linear curve exactly (int cp dT, or int k dT for the Kirchhoff
+integral).
 """
 
 from __future__ import annotations
@@ -13,7 +13,6 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import NDArray
 
 from workers.thermal.spec import Curve, Face, FloatArray, Material
 
@@ -28,21 +27,6 @@ class Frozen:
     h: FloatArray
     k: FloatArray
     rc: FloatArray
-
-    def change(self, other: Frozen, rc_weight: float = 1.0) -> float:
-        """Largest relative change of any coefficient between two freezes.
-
-        ``rc_weight`` scales the heat capacity's share: its substep value is the enthalpy secant, exact
-        for the section's energy, so it can be allowed to move further than h and k.
-        """
-        out = 0.0
-        for a, b, wt in ((self.h, other.h, 1.0), (self.k, other.k, 1.0), (self.rc, other.rc, rc_weight)):
-            finite = np.isfinite(a) & np.isfinite(b)
-            den = np.maximum(np.maximum(np.abs(a), np.abs(b)), 1e-12)
-            rel = wt * np.where(finite, np.abs(a - b) / den, 0.0)
-            if rel.size:
-                out = max(out, float(rel.max()))
-        return out
 
 
 def face_coefficient(face: Face, surface_c: FloatArray, ambient_c: FloatArray) -> FloatArray:
@@ -84,22 +68,11 @@ class MaterialSet:
         self.constant = all(m.is_constant for m in self.unique)
 
     def _each(self, temp_c: FloatArray, f: str) -> FloatArray:
-        return self.each_part(np.arange(self.which.size), temp_c, f)
-
-    def each_part(self, part: NDArray[np.intp], temp_c: FloatArray, f: str) -> FloatArray:
-        """Property ``f`` of part ``part[i]`` at ``temp_c[i]``: k, cp, h (enthalpy per kg, int cp dT) or
-        kint (Kirchhoff integral int k dT, W/m)."""
+        """Property ``f`` (k or cp) of each part at its temperature ``temp_c[i]``."""
         out = np.empty_like(temp_c, dtype=float)
         for i, m in enumerate(self.unique):
-            sel = self.which[part] == i
-            if f == "k":
-                out[sel] = m.conductivity(temp_c[sel])
-            elif f == "cp":
-                out[sel] = m.specific_heat(temp_c[sel])
-            elif f == "kint":
-                out[sel] = enthalpy(m.conductivity, temp_c[sel])
-            else:
-                out[sel] = enthalpy(m.specific_heat, temp_c[sel])
+            sel = self.which == i
+            out[sel] = (m.conductivity if f == "k" else m.specific_heat)(temp_c[sel])
         return out
 
     def conductivity(self, temp_c: FloatArray) -> FloatArray:
@@ -108,19 +81,6 @@ class MaterialSet:
     def heat_capacity(self, temp_c: FloatArray) -> FloatArray:
         """rho * cp at ``temp_c``, J/m^3/K."""
         return self.density * self._each(temp_c, "cp")
-
-    def secant_capacity(self, t0: FloatArray, t1: FloatArray) -> FloatArray:
-        """rho * (H(t1) - H(t0)) / (t1 - t0): the capacity that conserves energy between two means."""
-        close = np.abs(t1 - t0) < 1e-6
-        span = np.where(close, 1.0, t1 - t0)
-        sec = (self._each(t1, "h") - self._each(t0, "h")) / span
-        return self.density * np.where(close, self._each(0.5 * (t0 + t1), "cp"), sec)
-
-    def specific_heat_range(self) -> tuple[FloatArray, FloatArray]:
-        """Smallest and largest tabulated specific heat of each part's material, J/kg/K."""
-        lo = np.array([min(m.specific_heat.value) for m in self.unique])[self.which]
-        hi = np.array([max(m.specific_heat.value) for m in self.unique])[self.which]
-        return lo, hi
 
     def slowest_diffusivity(self) -> FloatArray:
         """Smallest k / (rho cp) over each material's tables, m^2/s (for conservative mode counts)."""

@@ -1,13 +1,14 @@
-"""One group of same-layout parts marched through the schedule, series step by series step.
+"""One group of same-layout parts through the linear steps of a schedule, by exact series.
 
 Symbols: theta = T - s, the excess over the offset s(xi, t) (the ambient for symmetric layouts, the
 straight steady line through both ambients for a two-face plate); A the coefficient tensor of theta on
 the current modes; K the decay rates alpha * sum(lam_i^2 / l_i^2) in 1/s; S the coefficients of ds/dt
-(ramps); within a substep every coefficient obeys A' = -K A - S, solved exactly:
+(ramps); within a step every coefficient obeys A' = -K A - S, solved exactly:
 A(t) = A0 exp(-K t) - S t phi(K t).
 
-At each substep start the profile is re-expanded on the new modes with closed-form transfer matrices,
-plus the projection of the change of offset (a new ambient, a new steady line).
+At each step start the profile is re-expanded on the new modes with closed-form transfer matrices,
+plus the projection of the change of offset (a new ambient, a new steady line); after a marched step
+the node profile is projected onto the modes instead.
 """
 
 from __future__ import annotations
@@ -61,7 +62,7 @@ class State:
 
 @dataclass(frozen=True)
 class Sub:
-    """A substep ready to evaluate: frozen modes, starting coefficients, decay and source."""
+    """A series step ready to evaluate: its modes, starting coefficients, decay and source."""
 
     modes: list[modes.Modes]
     A0: FloatArray
@@ -93,22 +94,12 @@ class Group:
         self.alpha_min = self.mats.slowest_diffusivity()
         self.tol = tol
         self.n_modes: tuple[int, ...] = ()
-        self.cp_range = self.mats.specific_heat_range()
-        self.quad_xi: list[FloatArray] | None = None
-        self.quad_w: FloatArray | None = None
-        if not self.mats.constant:
-            self.quad_xi, self.quad_w = _quadrature(self.kinds)
 
     # ----------------------------------------------------------------- set-up
-    def choose_modes(
-        self, tau_s: float, span_k: float, rate_k_s: float, alpha: FloatArray, substep_s: float | None = None
-    ) -> None:
+    def choose_modes(self, tau_s: float, span_k: float, rate_k_s: float, alpha: FloatArray) -> None:
         """Mode counts whose first dropped term is below the tolerance ``tau_s`` after a step start.
 
-        ``alpha`` is the smallest diffusivity of each part since the step started (m^2/s). Inside a
-        nonlinear step every substep re-expands the profile on modes for new coefficients; the part the
-        new series drops (about ``Tolerance.substep`` of the span) must die out within the substep
-        ``substep_s``, or the losses add up over many substeps.
+        ``alpha`` is the diffusivity of each part (m^2/s).
         """
         d = len(self.kinds)
         budget = self.tol.series_k / d / 3.0 ** (d - 1)
@@ -117,12 +108,7 @@ class Group:
             ell2 = self.lengths[:, i] ** 2
             decay = float(np.min(alpha * tau_s / ell2))
             forced = float(np.max(abs(rate_k_s) * ell2 / alpha))
-            count = layout.choose_modes(kind, d, decay, span_k, forced, budget)
-            if substep_s is not None:
-                decay_sub = float(np.min(alpha * substep_s / ell2))
-                mismatch = span_k * self.tol.substep
-                count = max(count, layout.choose_modes(kind, d, decay_sub, mismatch, 0.0, budget))
-            n.append(count)
+            n.append(layout.choose_modes(kind, d, decay, span_k, forced, budget))
         self.n_modes = tuple(n)
 
     def bound(self, tau_s: FloatArray, span_k: FloatArray, rate_k_s: float, alpha: FloatArray) -> FloatArray:
@@ -152,7 +138,7 @@ class Group:
             total = total + term
         return total
 
-    # ------------------------------------------------------------- freezing
+    # ----------------------------------------------------------- coefficients
     def face_specs(self, step: Step) -> list[tuple[Face, Callable[[float], float]]]:
         """Face law and ambient (as a function of step time) of every face of the layout."""
 
@@ -191,7 +177,7 @@ class Group:
         )
         return Frozen(h, self.mats.conductivity(mean_c), self.mats.heat_capacity(mean_c))
 
-    # ------------------------------------------------------------- substeps
+    # ------------------------------------------------------------------ steps
     def _make_modes(self, fr: Frozen, guess: list[modes.Modes] | None) -> list[modes.Modes]:
         out: list[modes.Modes] = []
         for i, kind in enumerate(self.kinds):
@@ -311,43 +297,10 @@ class Group:
                 tensor.outer(svecs).reshape(self.P, -1)
                 * (f.geo * f.sign / self.lengths[:, f.axis : f.axis + 1] ** 2)
             )
-        if self.quad_xi is not None:
-            # the profile at quadrature points, for the heat capacity of a varying-property part
-            for q, xi in enumerate(self.quad_xi):
-                names.append(f"q{q}")
-                w.append(self._point_weights(md, np.broadcast_to(xi, (self.P, xi.size))))
-                off.append(np.full(self.P, xi[0]))
         return names, np.stack(w, axis=1), np.stack(off, axis=1), np.stack(slopes, axis=1)
 
-    def profile(self, vals: dict[str, FloatArray], col: int) -> FloatArray | None:
-        """Temperatures (P, Q) at the quadrature points from a read-out, or None for constant properties."""
-        if self.quad_xi is None:
-            return None
-        return np.stack([vals[f"q{q}"][:, col] for q in range(len(self.quad_xi))], axis=1)
-
-    def capacity(self, prof0: FloatArray, prof1: FloatArray | None = None) -> FloatArray:
-        """Volume-average rho*c of a profile, or the section's enthalpy change over its mean temperature
-        change between two profiles: energy-exact when a latent-heat peak is crossed in part of the
-        section. Where the mean hardly moves while the profile reshapes that ratio is ill-posed, so it is
-        kept within the material's own range of specific heat."""
-        assert self.quad_w is not None
-        w = self.quad_w
-        P, Q = prof0.shape
-        idx = np.repeat(np.arange(P), Q)
-        rho = self.mats.density
-        if prof1 is None:
-            cp = self.mats.each_part(idx, prof0.reshape(-1), "cp").reshape(P, Q)
-            return np.asarray(rho * (cp @ w), dtype=float)
-        mid = self.mats.each_part(idx, (0.5 * (prof0 + prof1)).reshape(-1), "cp").reshape(P, Q) @ w
-        dmean = (prof1 - prof0) @ w
-        small = np.abs(dmean) < 1e-6
-        h0 = self.mats.each_part(idx, prof0.reshape(-1), "h").reshape(P, Q)
-        h1 = self.mats.each_part(idx, prof1.reshape(-1), "h").reshape(P, Q)
-        ratio = np.clip(((h1 - h0) @ w) / np.where(small, 1.0, dmean), self.cp_range[0], self.cp_range[1])
-        return np.asarray(rho * np.where(small, mid, ratio), dtype=float)
-
     def evaluate(self, sub: Sub, dt: FloatArray) -> tuple[dict[str, FloatArray], FloatArray]:
-        """Read-outs (name -> (P, m)) and heat in per volume (P, m), ``dt`` after the substep start."""
+        """Read-outs (name -> (P, m)) and heat in per volume (P, m), ``dt`` after the step start."""
         names, W, off, G = sub.fn
         A = sub.A0.reshape(self.P, -1)
         K = sub.K.reshape(self.P, -1)
@@ -399,7 +352,6 @@ class Group:
         return State(sub.modes, A, sub.sA + sub.dsA * dt, sub.sB + sub.dsB * dt)
 
 
-_QUAD_NODES = {1: 12, 2: 6, 3: 4}
 _PROJECT_NODES = 10  # Gauss points per grid interval when a node profile is projected on modes
 
 
@@ -427,25 +379,6 @@ def _project(m: modes.Modes, xi: FloatArray, T: FloatArray) -> tuple[FloatArray,
     coef = np.einsum("pmq,pq->pm", X, Tq * wq) / m.norm2()
     mean = (Tq * wq).sum(axis=1) / m.weight_total
     return np.asarray(coef, dtype=float), np.asarray(mean, dtype=float)
-
-
-def _quadrature(kinds: Sequence[layout.AxisKind]) -> tuple[list[FloatArray], FloatArray]:
-    """Tensor Gauss-Legendre points (as xi per axis) and volume weights summing to 1."""
-    n = _QUAD_NODES[len(kinds)]
-    x, w = np.polynomial.legendre.leggauss(n)
-    x, w = 0.5 * (x + 1), 0.5 * w
-    axes = []
-    for kind in kinds:
-        wk = 2 * x * w if kind == "bessel" else w
-        axes.append((x, wk / wk.sum()))
-    grids = np.meshgrid(*[a[0] for a in axes], indexing="ij")
-    wgrid = np.ones_like(grids[0])
-    for i, a in enumerate(axes):
-        shape = [1] * len(axes)
-        shape[i] = n
-        wgrid = wgrid * a[1].reshape(shape)
-    pts = [np.array([g.reshape(-1)[j] for g in grids]) for j in range(grids[0].size)]
-    return pts, wgrid.reshape(-1)
 
 
 def phi(x: FloatArray) -> FloatArray:

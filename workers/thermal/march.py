@@ -1,7 +1,7 @@
 """Nonlinear steps of plates and bars: an implicit finite-volume march, vectorised over the parts.
 
 Where a step has radiation, h(T_s) or temperature-dependent k and rho*c, no closed-form series holds
-over the section: freezing k and rho*c uniform across it (the substep scheme of ``group``) cannot place
+over the section: freezing k and rho*c uniform across it over substeps and chaining series cannot place
 a latent-heat peak or a steep k(T) gradient that moves through a part during a quench. For the 1-D
 layouts (symmetric plate, two-face plate, bar) such steps are marched instead:
 
@@ -259,17 +259,17 @@ class SolidGrid:
     lengths: tuple[float, ...]
     material: int
     surface: tuple[float, ...]
+    intervals: int  # node spacings along every axis (even)
 
 
 class Solid(Nodes):
     """Nodes of blocks and short cylinders: a tensor grid per part (axis 0 varying fastest), both
     grids; volumes, conductances and face areas are products of the 1-D ones of each axis."""
 
-    def __init__(self, parts: Sequence[SolidGrid], materials: Sequence[Material], intervals: int) -> None:
+    def __init__(self, parts: Sequence[SolidGrid], materials: Sequence[Material]) -> None:
         self.P = len(parts)
         self.tables = Tables(materials)
-        self.intervals = {"plate": intervals, "bar": intervals, "plate2": 2 * intervals}
-        self.xi = {k: node_xi(k, n) for k, n in self.intervals.items()}
+        self.intervals, self.xi = {}, {}  # per part here, see SolidGrid
         self.kinds = ["plate"] * self.P  # not used for profiles: solids never hand one to a series
         vol, part, base, fine, ei, ej, ec = [], [], [], [], [], [], []
         face_node, face_part, face_area, face_fine = [], [], [], []
@@ -283,7 +283,7 @@ class Solid(Nodes):
         for p, sg in enumerate(parts):
             self.starts[p] = start
             for g in (0, 1):
-                xis = [self.xi[k][:: 1 if g == 0 else 2] for k in sg.axes]
+                xis = [node_xi(k, sg.intervals)[:: 1 if g == 0 else 2] for k in sg.axes]
                 geo = [_axis(k, ell, xi) for k, ell, xi in zip(sg.axes, sg.lengths, xis, strict=True)]
                 shape = tuple(xi.size for xi in xis)
                 n = int(np.prod(shape))

@@ -111,19 +111,15 @@ class Tolerance:
     """Accuracy asked of the engine.
 
     ``series_k``: largest allowed truncation error of a series at any reported time (kelvin).
-    ``substep``: relative change allowed in a frozen coefficient (h, k, rho*c) over one substep of a
-    nonlinear step of a block or short cylinder. The predictor-corrector is designed second order;
-    the measured order is about 1.5 (tests/engine/test_convergence.py), so halving it cuts the
-    substep error by about 2.8.
-    ``step_k``: local time-error estimate allowed per step of the finite-volume march that solves
-    nonlinear steps of plates and bars (kelvin; see ``march``).
+    ``step_k``: local time-error estimate allowed per time step of the finite-volume march that solves
+    nonlinear steps (kelvin; see ``march``); the global error falls about as step_k^(2/3).
     ``intervals``: node spacings across a plate's half thickness or a bar's radius in that march (a
     two-face plate gets twice as many across its whole thickness); even, since the grid estimate uses
-    every second node. ``solid_intervals``: the same along every axis of a block or short cylinder.
+    every second node. ``solid_intervals``: the same along every axis of a block, twice that along
+    both axes of a short cylinder.
     """
 
     series_k: float = 1e-2
-    substep: float = 0.01
     step_k: float = 0.05
     intervals: int = 40
     solid_intervals: int = 12
@@ -152,5 +148,5 @@ class Trace:
     heat_in_j_m3: FloatArray
     corner_c: FloatArray | None = None
     second_surface_c: FloatArray | None = None
-    substeps: int = 0  # series substeps plus march time steps taken for this part
+    substeps: int = 0  # series steps plus march time steps taken for this part
     extra: dict[str, float] = field(default_factory=dict)

@@ -1,25 +1,29 @@
-"""Nonlinear steps of plates and bars: an implicit finite-volume march, vectorised over the parts.
+"""Nonlinear steps: an implicit finite-volume march, vectorised over the parts.
 
 Where a step has radiation, h(T_s) or temperature-dependent k and rho*c, no closed-form series holds
 over the section: freezing k and rho*c uniform across it over substeps and chaining series cannot place
-a latent-heat peak or a steep k(T) gradient that moves through a part during a quench. For the 1-D
-layouts (symmetric plate, two-face plate, bar) such steps are marched instead:
+a latent-heat peak or a steep k(T) gradient that moves through a part during a quench. Such steps are
+marched instead (plates, two-face plates and bars on 1-D grids; blocks and short cylinders, ``Solid``,
+on tensor grids of the same 1-D nodes):
 
 - Space: vertex-centred finite volumes on nodes x = l * f(xi), with a node on every face (so the surface
   temperature is a state) and the grid graded towards the exchanging faces. The state of a node is its
   temperature; its balance is written in enthalpy, rho * int cp dT, so a latent-heat peak is conserved.
   The flow between two nodes is the Kirchhoff difference of int k dT over their distance, exact for a
   steady section whatever k(T).
-- Time: implicit Euler on that balance, solved by Newton's method, with local Richardson extrapolation:
-  a step is taken once whole and once in two halves; the halves' difference from the whole is the error
-  estimate that sizes the step, and 2 * halves - whole is kept (second order). Each part has its own
-  step size. Reported times between step ends are interpolated linearly.
+- Time: implicit, solved by Newton's method. The first time step of a schedule step is implicit Euler
+  with local Richardson extrapolation (taken whole and in two halves; their difference is the error
+  estimate, 2 * halves - whole is kept); the rest are variable-step BDF2 with the Milne estimate (the
+  corrector against a predictor through the last two points and the last slope). Each part has its own
+  step size, kept so that the local estimate stays below ``Tolerance.step_k``. Reported times between
+  step ends take the quadratic through the last three step ends.
 - Grids: every part is marched on two grids, one with every second node of the other. Reported values
   are extrapolated, (4 fine - coarse) / 3, which removes the O(dx^2) error of the grid; |fine - coarse|
   / 3, the fine grid's own error estimate, plus the sum of the local time-error estimates, is the
   reported error bound.
 - Vectorised: all nodes of all parts and both grids sit in one flat array; every Newton iteration is one
-  tridiagonal (banded) solve over all of them, couplings cut between parts and grids.
+  tridiagonal (banded) solve over all of them for 1-D parts, couplings cut between parts and grids, or
+  one sparse solve for solids.
 
 Symbols: ``vol`` node volume and ``cond`` face area over node distance (per unit face area for plates,
 per radian for bars); H enthalpy per volume (J/m^3); Kc the Kirchhoff integral int k dT (W/m).

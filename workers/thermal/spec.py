@@ -131,7 +131,7 @@ class Trace:
 
         ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
         last sample of the earlier step. ``bound_k`` is the truncation bound of the series at each sample, or
-    for a marched step (plates and bars, see ``march``) the grid estimate plus the sum of the local
+    for a marched step (see ``march``) the grid estimate plus the sum of the local
     time-error estimates since the step began.
         ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
         faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and short

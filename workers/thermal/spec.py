@@ -120,7 +120,7 @@ class Tolerance:
     """
 
     series_k: float = 1e-2
-    step_k: float = 0.05
+    step_k: float = 0.03
     intervals: int = 40
     solid_intervals: int = 12
 

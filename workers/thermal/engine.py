@@ -24,6 +24,7 @@ from numpy.typing import NDArray
 
 from workers.thermal import layout, march
 from workers.thermal.group import Group, State
+from workers.thermal.nodes import Kind, Laws, Nodes, PartGrid, Solid, SolidGrid
 from workers.thermal.spec import FloatArray, Material, PartThermal, Step, Tolerance, Trace
 
 
@@ -191,7 +192,7 @@ class _Series:
 
 MARCHED = ("plate", "plate2", "bar")
 SOLIDS = ("block", "cylinder")
-SOLID_AXES: dict[str, tuple[march.Kind, ...]] = {
+SOLID_AXES: dict[str, tuple[Kind, ...]] = {
     "block": ("plate", "plate", "plate"),
     "cylinder": ("bar", "plate"),
 }
@@ -207,11 +208,11 @@ class _Marcher:
 
     def __init__(self, tol: Tolerance) -> None:
         self.tol = tol
-        self.nodes: dict[tuple[int, ...], march.Nodes] = {}
+        self.nodes: dict[tuple[int, ...], Nodes] = {}
         # per set of runners: end node temperatures of its last marched step and the states it left
         self.last: dict[tuple[int, ...], tuple[FloatArray, list[State]]] = {}
 
-    def _nodes(self, runners: Sequence[_Series]) -> march.Nodes:
+    def _nodes(self, runners: Sequence[_Series]) -> Nodes:
         key = tuple(id(r) for r in runners)
         if key in self.nodes:
             return self.nodes[key]
@@ -228,14 +229,14 @@ class _Marcher:
                     lengths = tuple(float(x) for x in r.g.lengths[j])
                     surface = tuple(float(x) for x in r.g.points.surface[j])
                     spacings = self.tol.solid_intervals * (2 if len(axes) == 2 else 1)  # cylinders: twice
-                    solids.append(march.SolidGrid(axes, lengths, mats.index(p.material), surface, spacings))
-            self.nodes[key] = march.Solid(solids, mats)
+                    solids.append(SolidGrid(axes, lengths, mats.index(p.material), surface, spacings))
+            self.nodes[key] = Solid(solids, mats)
         else:
             grids = []
             for r in runners:
                 for p, length in zip(r.g.parts, r.g.lengths[:, 0], strict=True):
-                    grids.append(march.PartGrid(r.g.kind, float(length), mats.index(p.material)))  # type: ignore[arg-type]
-            self.nodes[key] = march.Nodes(grids, mats, self.tol.intervals)
+                    grids.append(PartGrid(r.g.kind, float(length), mats.index(p.material)))  # type: ignore[arg-type]
+            self.nodes[key] = Nodes(grids, mats, self.tol.intervals)
         return self.nodes[key]
 
     def step(self, runners: Sequence[_Series], st: Step, n: int) -> None:
@@ -244,7 +245,7 @@ class _Marcher:
         last = self.last.get(key)
         if last is not None and all(r.state is s for r, s in zip(runners, last[1], strict=True)):
             T0 = last[0]
-        elif isinstance(nodes, march.Solid):
+        elif isinstance(nodes, Solid):
             # marched from the first step on: the start is uniform
             T0 = np.concatenate([r.g.initial for r in runners])[nodes.part]
         else:
@@ -259,9 +260,9 @@ class _Marcher:
         offsets = st.duration_s * np.arange(1, n + 1) / n
         lengths = np.concatenate([r.g.lengths.min(axis=1) for r in runners])
         alpha = np.concatenate([r.g.alpha_min for r in runners])
-        spacings = self.tol.solid_intervals if isinstance(nodes, march.Solid) else self.tol.intervals
+        spacings = self.tol.solid_intervals if isinstance(nodes, Solid) else self.tol.intervals
         first = np.minimum((lengths / spacings) ** 2 / alpha, offsets[0])
-        res = march.march(nodes, march.Laws(laws), T0, offsets, self.tol.step_k, first)
+        res = march.march(nodes, Laws(laws), T0, offsets, self.tol.step_k, first)
         states = []
         row = 0
         for r in runners:
@@ -277,7 +278,7 @@ class _Marcher:
             r.substeps += res.steps[rows]
             r.col += n
             row += P
-            if isinstance(nodes, march.Solid):
+            if isinstance(nodes, Solid):
                 states.append(r.state)
                 continue
             xi = nodes.xi[r.g.kind]  # type: ignore[index]

@@ -109,7 +109,8 @@ def _floats(values: np.ndarray[Any, Any], decimals: int) -> list[float | None]:
 
 
 def _bounds(values: np.ndarray[Any, Any]) -> list[float | None]:
-    """Truncation bounds to 2 significant digits: they span many decades."""
+    """Error bounds (series truncation, or the march's grid and time estimates) to 2 significant digits:
+    they span many decades."""
     return [float(f"{v:.2g}") if math.isfinite(v) else None for v in np.asarray(values, float).tolist()]
 
 

@@ -62,6 +62,16 @@ def alternating(n: int, duration: float) -> list[Step]:
 FURNACE = Face(Curve.constant(20.0), 0.8)
 HEARTH = const_face(300.0)  # chosen here: contact with a hearth plate
 
+
+def reheat_schedule() -> list[Step]:
+    """Marched (radiation) and series (constant h) steps in turn: the profile crosses between them."""
+    return [
+        Step(3600.0, 860.0, FURNACE, ambient_start_c=600.0),
+        Step(600.0, 60.0, const_face(2000.0)),
+        Step(1800.0, 860.0, FURNACE),
+    ]
+
+
 CASES = {
     # linear: exact series per step
     "plate, ramp and 4 chained steps": Case(plate(0.03), linear_schedule(), False),
@@ -114,25 +124,8 @@ CASES = {
     ),
     "plate, k(T) and cp(T), full schedule": Case(plate(0.03, EUROCODE_STEEL), heat_treat_schedule(), True),
     "bar, k(T) and cp(T), full schedule": Case(bar(0.04, EUROCODE_STEEL), heat_treat_schedule(), True),
-    # marched (radiation) and series (constant h) steps in turn: the profile crosses between them
-    "plate, radiant heat, constant-h quench, radiant reheat": Case(
-        plate(0.03),
-        [
-            Step(3600.0, 860.0, FURNACE, ambient_start_c=600.0),
-            Step(600.0, 60.0, const_face(2000.0)),
-            Step(1800.0, 860.0, FURNACE),
-        ],
-        True,
-    ),
-    "bar, radiant heat, constant-h quench, radiant reheat": Case(
-        bar(0.04),
-        [
-            Step(3600.0, 860.0, FURNACE, ambient_start_c=600.0),
-            Step(600.0, 60.0, const_face(2000.0)),
-            Step(1800.0, 860.0, FURNACE),
-        ],
-        True,
-    ),
+    "plate, radiant heat, constant-h quench, radiant reheat": Case(plate(0.03), reheat_schedule(), True),
+    "bar, radiant heat, constant-h quench, radiant reheat": Case(bar(0.04), reheat_schedule(), True),
     "two-face plate, radiant top, hearth, one-sided quench": Case(
         plate(0.025, EUROCODE_STEEL),
         [

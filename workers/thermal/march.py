@@ -156,7 +156,7 @@ def implicit_solve(
         ok = nodes.per_part_max(np.abs(delta)) < NEWTON_TOL_K
         if ok.all():
             break
-    H, C = nodes.tables.lookup(nodes.base, T)[:2]
+    H, C = nodes.tables.lookup(nodes.base, T, 2)
     q, _ = laws.flux(nodes, T[fn], t1)
     flow_in = q * nodes.face_area * g[nodes.face_part]
     heat_f = np.bincount(nodes.face_part, weights=np.where(nodes.face_fine, flow_in, 0.0), minlength=nodes.P)
@@ -214,7 +214,7 @@ def march(
     taken = np.ones(P, dtype=np.int64)
 
     # --- first step: implicit Euler, whole and in halves, extrapolated
-    H0 = tabs.lookup(nodes.base, T0)[0]
+    H0 = tabs.lookup(nodes.base, T0, 1)[0]
     h = np.minimum(np.asarray(first_dt, dtype=float), end_t)
     T = T0.copy()
     todo = np.ones(P, dtype=bool)
@@ -236,7 +236,7 @@ def march(
         h = np.where(todo & ~fine, h * np.where(solved, cut, 0.25), h)
         todo = todo & ~fine
         _guard(todo & ~solved & (hh <= hmin))
-    H, C = tabs.lookup(nodes.base, T)[:2]
+    H, C = tabs.lookup(nodes.base, T, 2)
     t = np.where(h >= end_t, end_t, h)
     heat_f, heat_c = Q_f.copy(), Q_c.copy()
     err_sum = est.copy()

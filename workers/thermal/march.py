@@ -59,23 +59,8 @@ def _sparse_solve(nodes: Nodes, J: sparse.csc_matrix, rhs: FloatArray) -> FloatA
     that no longer converges quickly."""
     lu = nodes.factor
     if lu is not None:
-        count = [0]
-
-        def tick(_: float) -> None:
-            count[0] += 1
-
         pre = splinalg.LinearOperator(J.shape, matvec=lu.solve)
-        x, info = splinalg.gmres(
-            J,
-            rhs,
-            rtol=1e-5,
-            atol=0.0,
-            restart=GMRES_ITERATIONS,
-            maxiter=1,
-            M=pre,
-            callback=tick,
-            callback_type="pr_norm",
-        )
+        x, info = splinalg.gmres(J, rhs, rtol=1e-5, atol=0.0, restart=GMRES_ITERATIONS, maxiter=1, M=pre)
         if info == 0:
             return np.asarray(x, dtype=float)
     nodes.factor = splinalg.splu(J, permc_spec="MMD_AT_PLUS_A")

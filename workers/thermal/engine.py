@@ -169,7 +169,7 @@ class _Series:
         self.col = 1
 
     def linear(self, st: Step) -> bool:
-        return self.g.mats.constant and all(f.is_linear for f, _ in self.g.face_specs(st))
+        return all(_linear(p, st) for p in self.g.parts)
 
     def store(self, vals: dict[str, FloatArray], heat: FloatArray, cols: slice) -> None:
         for name, v in vals.items():
@@ -209,7 +209,8 @@ SOLID_AXES: dict[str, tuple[Kind, ...]] = {
 
 
 class _Marcher:
-    """Marches the nonlinear steps of the 1-D groups, all their parts at once (see ``march``).
+    """Marches the nonlinear steps: of the 1-D groups all their parts at once, of each block or short
+    cylinder the whole schedule (see ``march``).
 
     Between consecutive marched steps the flat node temperatures (both grids) carry over; after a
     series step they are rebuilt from the series, and a series step after a marched one starts from the

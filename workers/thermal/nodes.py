@@ -329,7 +329,11 @@ class Laws:
     def __init__(self, faces: Sequence[tuple[Face, float, float]]) -> None:
         """``faces``: (face, ambient at the step start degC, ambient rate K/s) per law."""
         self.faces = list(faces)
-        self.slopes = [_slopes(f.htc.temp_c, f.htc.value) for f, _, _ in faces]
+        # per law: the h curve's knots, values and segment slopes, as arrays once
+        self.curves = [
+            (np.asarray(f.htc.temp_c, dtype=float), np.asarray(f.htc.value, dtype=float)) for f, _, _ in faces
+        ]
+        self.slopes = [_slopes(x, v) for x, v in self.curves]
 
     def flux(self, nodes: Nodes, Ts: FloatArray, t_part: FloatArray) -> tuple[FloatArray, FloatArray]:
         """Flux into the part (W/m^2) at every face entry and its slope in the surface temperature."""
@@ -341,9 +345,9 @@ class Laws:
                 continue
             ts = Ts[sel]
             ta = a0 + rate * t_part[nodes.face_part[sel]]
-            tp = np.asarray(face.htc.temp_c, dtype=float)
-            h = np.interp(ts, tp, face.htc.value)
-            knots, s = self.slopes[law]
+            knots, values = self.curves[law]
+            h = np.interp(ts, knots, values)
+            s = self.slopes[law]
             if s.size:
                 j = np.clip(np.searchsorted(knots, ts, side="right") - 1, 0, s.size - 1)
                 slope = np.where((ts >= knots[0]) & (ts < knots[-1]), s[j], 0.0)
@@ -359,8 +363,6 @@ class Laws:
         return q, dq
 
 
-def _slopes(temp_c: Sequence[float], value: Sequence[float]) -> tuple[FloatArray, FloatArray]:
-    x = np.asarray(temp_c, dtype=float)
-    if x.size < 2:
-        return x, np.zeros(0)
-    return x, np.diff(np.asarray(value, dtype=float)) / np.diff(x)
+def _slopes(x: FloatArray, v: FloatArray) -> FloatArray:
+    """Slope of each segment of a piecewise-linear curve (none for a one-point curve)."""
+    return np.diff(v) / np.diff(x) if x.size > 1 else np.zeros(0)

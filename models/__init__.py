@@ -1,6 +1,10 @@
-"""What every soakline process shares: batch-file models, units, catalogs and input errors.
+"""What every soakline process shares, the lowest layer: batch-file models, units, catalogs, input
+errors, result shapes and, in their own submodules, the settings, the database tables, the store and the
+job repository.
 
-Pure: pydantic, pint and PyYAML only; no database, no workers. Import from here, not the submodules.
+Nothing here imports ``workers`` or ``scheduler`` (the import contracts in pyproject.toml check it).
+This module exports the batch-file side (pydantic, pint and PyYAML only); the service side is imported
+from its submodules: ``models.settings``, ``models.tables``, ``models.store``, ``models.repository``.
 """
 
 from models.catalog import (
@@ -17,7 +21,7 @@ from models.catalog import (
     medium_names,
 )
 from models.errors import Problem, SpecError
-from models.loading import format_path, load_batch_file, parse_batch, with_step_durations
+from models.loading import format_path, load_batch_file, parse_batch, with_durations, with_step_durations
 from models.spec import (
     BatchSpec,
     InlineMaterialSpec,
@@ -72,5 +76,6 @@ __all__ = [
     "parse_temperature_delta",
     "parse_time",
     "ureg",
+    "with_durations",
     "with_step_durations",
 ]

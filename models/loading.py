@@ -18,7 +18,7 @@ from typing import Any
 import yaml
 from pydantic import BaseModel, ValidationError
 
-from models import limits
+from models import limits, units
 from models.errors import Problem, SpecError
 from models.parts import InlineMaterialSpec, PartSpec
 from models.spec import BatchSpec
@@ -117,6 +117,42 @@ def with_step_durations(spec: BatchSpec, durations: Mapping[str, str]) -> BatchS
     for step in doc["schedule"]:
         step["duration"] = durations.get(step["name"], step["duration"])
     return parse_batch(doc)
+
+
+def with_durations(spec: BatchSpec, durations: Mapping[str, str]) -> BatchSpec:
+    """A rerun's spec: the named steps' durations replaced ({"heat": "4 h"}) and checked once.
+
+    Problems are reported at ``durations.STEP``: unknown steps, values that are not positive times,
+    and any rule of the file the new durations break (a hold longer than its step).
+    """
+    names = [s.name for s in spec.schedule]
+    problems = [
+        Problem(f"durations.{name}", f"no step named '{name}' in the schedule; steps: {', '.join(names)}")
+        for name in durations
+        if name not in names
+    ]
+    for name, text in durations.items():
+        if name not in names:
+            continue
+        try:
+            seconds = units.parse_time(text)
+        except ValueError as exc:
+            problems.append(Problem(f"durations.{name}", str(exc)))
+            continue
+        if not seconds > 0.0:
+            problems.append(Problem(f"durations.{name}", f"must be more than zero, got '{text}'"))
+    if problems:
+        raise SpecError(problems)
+    try:
+        return with_step_durations(spec, dict(durations))
+    except SpecError as exc:
+        step_paths = {format_path(("schedule", i, "duration")): name for i, name in enumerate(names)}
+        raise SpecError(
+            [
+                Problem(f"durations.{step_paths[p.path]}", p.message) if p.path in step_paths else p
+                for p in exc.problems
+            ]
+        ) from None
 
 
 class _UniqueKeyLoader(yaml.SafeLoader):

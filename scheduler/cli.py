@@ -8,9 +8,10 @@ The service commands (serve, worker, ...) are mounted from ``scheduler.service_c
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping
 from importlib import resources
 from pathlib import Path
-from typing import Annotated, Any
+from typing import Annotated
 
 import typer
 from rich.console import Console
@@ -19,6 +20,7 @@ from rich.table import Table
 from rich.text import Text
 
 from models import BatchSpec, SpecError, load_batch_file
+from models.results import BatchResult, CheckBody
 from workers.jobs import CHUNK_PARTS, NOTICE, run_batch, suggest
 
 app = typer.Typer(
@@ -73,7 +75,7 @@ def _load(file: Path) -> BatchSpec:
         raise _invalid(exc, str(file)) from None
 
 
-def _write_json(result: dict[str, Any], path: Path) -> None:
+def _write_json(result: Mapping[str, object], path: Path) -> None:
     try:
         path.write_text(json.dumps(result, separators=(",", ":")) + "\n", encoding="utf-8")
     except OSError as exc:
@@ -85,7 +87,7 @@ def _notice() -> None:
     out.print(Text(f"Note: {NOTICE}", style="italic"))
 
 
-def _compute(batch: BatchSpec) -> dict[str, Any]:
+def _compute(batch: BatchSpec) -> BatchResult:
     if len(batch.parts) < PROGRESS_FROM_PARTS:
         with out.status(f"Computing {len(batch.parts)} parts ..."):
             return run_batch(batch)
@@ -100,7 +102,7 @@ def _compute(batch: BatchSpec) -> dict[str, Any]:
         return run_batch(batch, report, chunk=min(CHUNK_PARTS, max(25, len(batch.parts) // 10)))
 
 
-def _result_table(result: dict[str, Any]) -> Table:
+def _result_table(result: BatchResult) -> Table:
     table = Table(title=f"Batch: {result['batch']}", title_justify="left", show_lines=False)
     columns = ("Part", "Shape and size", "Steel", "Step", "Target", "Predicted", "Result", "Margin")
     for name in columns:
@@ -108,7 +110,7 @@ def _result_table(result: dict[str, Any]) -> Table:
             name, justify="right" if name == "Margin" else "left", no_wrap=name in ("Part", "Result")
         )
     for part in result["parts"]:
-        checks = part["checks"] or [None]
+        checks: list[CheckBody | None] = [*part["checks"]] or [None]
         for i, check in enumerate(checks):
             cells = [part["id"], part["size"], part["material"]] if i == 0 else ["", "", ""]
             last = i == len(checks) - 1
@@ -128,7 +130,7 @@ def _result_table(result: dict[str, Any]) -> Table:
     return table
 
 
-def _report(result: dict[str, Any], json_path: Path) -> int:
+def _report(result: BatchResult, json_path: Path) -> int:
     out.print(_result_table(result))
     flagged = [p for p in result["parts"] if p["flagged"]]
     for part in flagged:

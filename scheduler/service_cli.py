@@ -16,11 +16,14 @@ from typing import Annotated, Any, NoReturn
 
 import httpx
 import typer
+import yaml
 from rich.console import Console
 from rich.table import Table
 
+from models.settings import Settings, SettingsError, load_settings
+from models.store import DatabaseUnavailable, migrate, session_factory, session_scope, wait_for_database
 from models.tables import Decision, Role
-from scheduler.settings import Settings, SettingsError, load_settings
+from scheduler.api.auth import create_token
 
 __all__ = ["register"]
 
@@ -48,8 +51,6 @@ def _settings() -> Settings:
 
 
 def _prepare_database(settings: Settings) -> None:
-    from scheduler.store import DatabaseUnavailable, migrate, wait_for_database
-
     try:
         wait_for_database(settings, log=lambda m: err.print(m, highlight=False))
         migrate(settings)
@@ -65,6 +66,7 @@ def serve(
     port: Annotated[int, typer.Option(help="TCP port.", min=1, max=65535)] = 8000,
 ) -> None:
     """Run the HTTP API. Without SOAKLINE_BROKER_URL it also runs the jobs itself."""
+    # Imported here, as is Celery below: `soakline run` and the client verbs never load the servers.
     import uvicorn
 
     from scheduler.api import create_app
@@ -99,9 +101,6 @@ def token_create(
     role: Annotated[Role, typer.Option(help="planner: submit/rerun; reviewer: dispositions; viewer: read.")],
 ) -> None:
     """Create an API token; it is printed once, as the last word, and only its hash is stored."""
-    from scheduler.api.auth import create_token
-    from scheduler.store import session_factory, session_scope
-
     settings = _settings()
     _prepare_database(settings)
     try:
@@ -147,8 +146,6 @@ def _call(client: httpx.Client, method: str, url: str, **kwargs: Any) -> Any:
 
 
 def _read_batch_file(path: Path) -> Any:
-    import yaml
-
     try:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:

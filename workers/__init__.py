@@ -1,4 +1,7 @@
-"""The computation side of soakline: the thermal engine, target checks, and the Celery app and tasks.
+"""The computation side of soakline, the middle layer: the thermal engine (``thermal``), the spec to
+engine conversion (``convert``), target checks (``targets``), the batch jobs of the CLI and the service
+(``jobs``), running a stored job (``runner``), the background loops (``background``), the dispatcher
+interface (``dispatch``) and the thin Celery module (``celery_app``).
 
 ``celery -A workers worker`` finds the Celery app as ``workers.celery``; it is imported only when asked
 for, so that using the engine never loads Celery or reads the service settings.

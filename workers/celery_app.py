@@ -1,27 +1,51 @@
-"""The Celery application: ``celery -A workers worker`` and ``soakline worker`` both run this one.
+"""The Celery side, kept thin: the app, the one task, publishing, and the worker's start-up hooks.
 
-Configuration comes from :mod:`scheduler.settings` when first needed (not at import), so that importing
-``workers`` never fails on the environment. Delivery is at-least-once and the database makes it
-exactly-once in effect: messages are acknowledged after the task (late acks), go back to the queue when
-a worker process dies, one message is prefetched at a time, and a single visibility timeout
-(``SOAKLINE_VISIBILITY_TIMEOUT_S``) governs redelivery of unacknowledged messages in Redis.
-At start-up a worker waits for the database, migrates it, and runs a sweeper thread that queues again
-any job left without a result past its deadline.
+``celery -A workers worker`` and ``soakline worker`` both run this app. Configuration comes from
+:mod:`models.settings` when first needed (not at import), so that importing ``workers`` never fails on
+the environment. The task's message is a job id and nothing else; the work is
+:func:`workers.runner.execute_job`. Delivery is at-least-once and the database makes it exactly-once in
+effect: messages are acknowledged after the task (late acks), go back to the queue when a worker
+process dies, one message is prefetched at a time, and a single visibility timeout
+(``SOAKLINE_VISIBILITY_TIMEOUT_S``) governs redelivery of unacknowledged messages in Redis. At start-up
+a worker waits for the database, migrates it, and runs a sweeper thread.
 """
 
 from __future__ import annotations
 
 import logging
+from collections.abc import Sequence
 from typing import Any
 
-from celery import Celery
+import kombu.exceptions
+import redis.exceptions
+from celery import Celery, Task
 from celery.signals import worker_init, worker_process_init, worker_ready, worker_shutdown
 
-from scheduler.settings import Settings, get_settings
+from models import repository as jobs_repo
+from models.settings import Settings, get_settings
+from models.store import engine_for, migrate, session_factory, session_scope, wait_for_database
+from workers.background import Sweeper
+from workers.runner import backoff_s, execute_job, is_transient
 
-__all__ = ["TASK_NAME", "app", "celery_config", "configure"]
+__all__ = [
+    "TASK_NAME",
+    "CeleryDispatcher",
+    "app",
+    "celery_config",
+    "configure",
+    "publish",
+    "queue_depth",
+    "run_job",
+]
 
 TASK_NAME = "soakline.run_job"
+MAX_TASK_RETRIES = 12
+# Broker errors a retry can get past, besides the database's (runner.is_transient).
+BROKER_ERRORS: tuple[type[BaseException], ...] = (
+    kombu.exceptions.OperationalError,  # broker unreachable while publishing a retry
+    redis.exceptions.ConnectionError,
+    redis.exceptions.TimeoutError,
+)
 log = logging.getLogger(__name__)
 
 
@@ -58,7 +82,7 @@ def celery_config(settings: Settings) -> dict[str, Any]:
     }
 
 
-app = Celery("soakline", include=["workers.tasks"])
+app = Celery("soakline")
 app.add_defaults(lambda: celery_config(get_settings()))
 
 
@@ -73,10 +97,86 @@ def configure(settings: Settings) -> None:
     app._after_fork()
 
 
+# -- the task -----------------------------------------------------------------------------------------
+
+
+# Celery's decorator is untyped; the function below is fully annotated.
+@app.task(  # type: ignore[untyped-decorator]
+    name=TASK_NAME, bind=True, acks_late=True, reject_on_worker_lost=True, ignore_result=True
+)
+def run_job(self: Task[Any, Any], job_id: int) -> str:
+    """The job id is the whole message; everything else is read from the database."""
+    settings = get_settings()
+    try:
+        return str(execute_job(job_id, settings, count_attempt=self.request.retries == 0))
+    except Exception as exc:
+        retryable = is_transient(exc) or isinstance(exc, BROKER_ERRORS)
+        if not retryable or self.request.retries >= MAX_TASK_RETRIES:
+            # Not retryable here: the job row keeps its deadline and the sweeper queues it again.
+            raise
+        delay = backoff_s(self.request.retries, settings.retry_backoff_max_s)
+        log.warning("job %s: transient %s, retry in %.1f s", job_id, type(exc).__name__, delay)
+        raise self.retry(exc=exc, countdown=delay, max_retries=MAX_TASK_RETRIES) from None
+
+
+# -- publishing ---------------------------------------------------------------------------------------
+
+
+def publish(job_ids: Sequence[int], settings: Settings | None = None) -> list[int]:
+    """Send one message per job id; returns the ids that could not be sent (broker unreachable)."""
+    ids = list(job_ids)
+    settings = settings or get_settings()
+    sent = 0
+    try:
+        # One pooled producer (one connection) for the whole list, not one per message.
+        with app.producer_or_acquire() as producer:
+            for job_id in ids:
+                run_job.apply_async((job_id,), queue=settings.queue, producer=producer)
+                sent += 1
+    except (kombu.exceptions.OperationalError, redis.exceptions.RedisError, OSError) as exc:
+        log.warning("broker unreachable (%s): %d job(s) left for the sweeper", exc, len(ids) - sent)
+        return ids[sent:]
+    return []
+
+
+def queue_depth(settings: Settings) -> int | None:
+    """Messages waiting in the broker queue, None when the broker cannot be asked."""
+    try:
+        with app.connection_for_write() as conn:
+            conn.ensure_connection(max_retries=1)
+            return int(conn.default_channel.queue_declare(queue=settings.queue, passive=True).message_count)
+    except Exception as exc:  # a missing queue is an empty one; anything else means "don't know"
+        if "NOT_FOUND" in str(exc) or "no queue" in str(exc).lower():
+            return 0
+        log.warning("cannot read the depth of queue %s: %s", settings.queue, exc)
+        return None
+
+
+class CeleryDispatcher:
+    """Publishes job ids to the broker; ids it cannot send are made stale at once, for the sweeper."""
+
+    def __init__(self, settings: Settings) -> None:
+        self.settings = settings
+
+    def __call__(self, job_ids: Sequence[int], /) -> list[int]:
+        unsent = publish(job_ids, self.settings)
+        if unsent:
+            try:
+                with session_scope(session_factory(self.settings)) as session:
+                    jobs_repo.mark_unsent(session, unsent)
+            except Exception as exc:  # their deadline then runs out as usual
+                log.warning("could not mark %d unsent job(s): %s", len(unsent), exc)
+        return unsent
+
+    def backlog(self) -> int | None:
+        return queue_depth(self.settings)
+
+
+# -- worker start-up ----------------------------------------------------------------------------------
+
+
 def _prepare_store(**_: Any) -> None:
     """Before the pool starts: insist on a broker, wait for the database, migrate it."""
-    from scheduler.store import migrate, wait_for_database
-
     settings = get_settings()
     if settings.broker_url is None:
         raise SystemExit(
@@ -89,21 +189,17 @@ def _prepare_store(**_: Any) -> None:
 
 def _fresh_connections(**_: Any) -> None:
     """A forked pool process must not share the parent's database sockets."""
-    from scheduler.store import engine_for
-
     engine_for(get_settings().database_url).dispose(close=False)
 
 
-_sweeper: Any = None
+_sweeper: Sweeper | None = None
 
 
 def _start_sweeper(**_: Any) -> None:
     """Each worker also sweeps: stale jobs are re-queued even when no API process is running."""
-    from workers.background import Sweeper
-    from workers.tasks import publish
-
     global _sweeper
-    _sweeper = Sweeper(get_settings(), publish=publish)
+    settings = get_settings()
+    _sweeper = Sweeper(settings, CeleryDispatcher(settings))
     _sweeper.start()
 
 

@@ -8,22 +8,14 @@ descriptions, step boundaries and the safety notice. No database, no queue: call
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
 
-from models import (
-    BatchSpec,
-    PartSpec,
-    Problem,
-    SpecError,
-    TargetSpec,
-    format_path,
-    parse_time,
-    with_step_durations,
-)
+from models import BatchSpec, PartSpec, SpecError, TargetSpec
 from models import limits as _limits
+from models.results import BatchResult, PartResult, StepWindow, SuggestBody, TraceBody
 from workers.convert import engine_inputs, to_part, to_step
 from workers.targets import Check, Target, evaluate, format_duration
 from workers.thermal import PartThermal, Step, Tolerance, Trace, simulate
@@ -36,7 +28,6 @@ __all__ = [
     "run_batch",
     "run_part",
     "suggest",
-    "with_durations",
 ]
 
 NOTICE = (
@@ -114,22 +105,22 @@ def _bounds(values: np.ndarray[Any, Any]) -> list[float | None]:
     return [float(f"{v:.2g}") if math.isfinite(v) else None for v in np.asarray(values, float).tolist()]
 
 
-def _trace_json(trace: Trace) -> dict[str, list[float | None]]:
-    out = {
+def _trace_json(trace: Trace) -> TraceBody:
+    out: TraceBody = {
         "time_s": _floats(trace.time_s, _TIME_DECIMALS),
         "core_c": _floats(trace.core_c, _TEMP_DECIMALS),
         "surface_c": _floats(trace.surface_c, _TEMP_DECIMALS),
         "ambient_c": _floats(trace.ambient_c, _TEMP_DECIMALS),
+        "bound_k": _bounds(trace.bound_k),
     }
     if trace.corner_c is not None:
         out["corner_c"] = _floats(trace.corner_c, _TEMP_DECIMALS)
     if trace.second_surface_c is not None:
         out["second_surface_c"] = _floats(trace.second_surface_c, _TEMP_DECIMALS)
-    out["bound_k"] = _bounds(trace.bound_k)
     return out
 
 
-def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace) -> dict[str, Any]:
+def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace) -> PartResult:
     checks = part_checks(batch, part, trace)
     flags = [c.flag_dict() for c in checks if not c.passed]
     return {
@@ -144,8 +135,9 @@ def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace) -> dict[str, Any
     }
 
 
-def _steps_json(batch: BatchSpec) -> list[dict[str, Any]]:
-    out, start = [], 0.0
+def _steps_json(batch: BatchSpec) -> list[StepWindow]:
+    out: list[StepWindow] = []
+    start = 0.0
     for s in batch.schedule:
         out.append({"name": s.name, "start_s": round(start, 1), "end_s": round(start + s.duration_s, 1)})
         start += s.duration_s
@@ -162,7 +154,7 @@ def run_batch(
     *,
     tol: Tolerance | None = None,
     chunk: int = CHUNK_PARTS,
-) -> dict[str, Any]:
+) -> BatchResult:
     """The whole result of a batch: every part's checks, flags and trace, and the safety notice.
 
     Parts go to the engine ``chunk`` at a time (one vectorised call per chunk); ``progress(done,
@@ -192,51 +184,11 @@ def _find_part(batch: BatchSpec, part_id: str) -> PartSpec:
     raise SpecError.single(f"no part '{part_id}' in batch '{batch.batch}'", "part_id")
 
 
-def run_part(batch: BatchSpec, part_id: str, *, tol: Tolerance | None = None) -> dict[str, Any]:
+def run_part(batch: BatchSpec, part_id: str, *, tol: Tolerance | None = None) -> PartResult:
     """One part's entry of the result (same shape as in ``run_batch``), computed on its own."""
     part = _find_part(batch, part_id)
     trace = _simulate([to_part(part)], [to_step(s) for s in batch.schedule], tol)[0]
     return _part_entry(batch, part, trace)
-
-
-# -- reruns with new durations ------------------------------------------------------------------------
-
-
-def with_durations(batch: BatchSpec, durations: Mapping[str, str]) -> BatchSpec:
-    """A new, re-validated spec with the named steps' durations replaced ({"heat": "4 h"}).
-
-    Problems are reported at ``durations.STEP``: unknown steps, values that are not positive times.
-    """
-    names = [s.name for s in batch.schedule]
-    problems = [
-        Problem(f"durations.{name}", f"no step named '{name}' in the schedule; steps: {', '.join(names)}")
-        for name in durations
-        if name not in names
-    ]
-    for name, text in durations.items():
-        if name not in names:
-            continue
-        try:
-            seconds = parse_time(text)
-        except ValueError as exc:
-            problems.append(Problem(f"durations.{name}", str(exc)))
-            continue
-        if not seconds > 0.0:
-            problems.append(Problem(f"durations.{name}", f"must be more than zero, got '{text}'"))
-    if problems:
-        raise SpecError(problems)
-    try:
-        return with_step_durations(batch, dict(durations))
-    except SpecError as exc:
-        raise SpecError([_rename(p, names) for p in exc.problems]) from None
-
-
-def _rename(problem: Problem, names: list[str]) -> Problem:
-    """``schedule[1].duration`` -> ``durations.soak``; other paths stay as they are."""
-    for i, name in enumerate(names):
-        if problem.path == format_path(("schedule", i, "duration")):
-            return Problem(f"durations.{name}", problem.message)
-    return problem
 
 
 # -- the shortest duration of a step ------------------------------------------------------------------
@@ -307,7 +259,7 @@ def _worst(failed: list[tuple[str, Check]]) -> tuple[str, Check]:
 
 def _answer(
     step: str, duration_s: float | None, limiting: str | None, reason: str | None, runs: int
-) -> dict[str, Any]:
+) -> SuggestBody:
     return {
         "step": step,
         "duration_s": None if duration_s is None else round(duration_s, 1),
@@ -319,7 +271,7 @@ def _answer(
     }
 
 
-def suggest(batch: BatchSpec, step: str, *, tol: Tolerance | None = None) -> dict[str, Any]:
+def suggest(batch: BatchSpec, step: str, *, tol: Tolerance | None = None) -> SuggestBody:
     """The shortest duration of ``step`` for which every part passes every target of that step.
 
     Brackets by doubling from the file's duration (or bisects below it), then bisects to about 1 % or
@@ -342,7 +294,7 @@ def suggest(batch: BatchSpec, step: str, *, tol: Tolerance | None = None) -> dic
     def improvable(d: float) -> list[tuple[str, Check]]:
         return [f for f in at[d] if search.helped(f[0], f[1], d)]
 
-    def stuck(d: float) -> dict[str, Any]:
+    def stuck(d: float) -> SuggestBody:
         pid, c = next(f for f in at[d] if not search.helped(f[0], f[1], d))
         return _answer(
             step,

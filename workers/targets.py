@@ -16,12 +16,13 @@ Conventions (each is a choice a reviewer may want to know):
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass
-from typing import Any, Literal
+from dataclasses import dataclass
+from typing import Literal
 
 import numpy as np
 from numpy.typing import NDArray
 
+from models.results import CheckBody, FlagBody
 from workers.thermal import Trace
 
 FloatArray = NDArray[np.float64]
@@ -214,14 +215,33 @@ class Check:
     margin_unit: str
     message: str
 
-    def as_dict(self) -> dict[str, Any]:
-        return asdict(self)
-
-    def flag_dict(self) -> dict[str, Any]:
+    def flag_dict(self) -> FlagBody:
         """The contract's flag: everything but the pass marker."""
-        out = self.as_dict()
-        del out["passed"]
-        return out
+        return FlagBody(
+            step=self.step,
+            at=self.at,
+            target=self.target,
+            required=self.required,
+            achieved=self.achieved,
+            margin=self.margin,
+            margin_value=self.margin_value,
+            margin_unit=self.margin_unit,
+            message=self.message,
+        )
+
+    def as_dict(self) -> CheckBody:
+        return CheckBody(
+            step=self.step,
+            at=self.at,
+            target=self.target,
+            passed=self.passed,
+            required=self.required,
+            achieved=self.achieved,
+            margin=self.margin,
+            margin_value=self.margin_value,
+            margin_unit=self.margin_unit,
+            message=self.message,
+        )
 
 
 def _location(trace: Trace, at: Point) -> FloatArray:

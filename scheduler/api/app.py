@@ -6,17 +6,19 @@ Celery and this process only sweeps stale jobs; without one, it also runs jobs i
 
 from __future__ import annotations
 
-import functools
 import logging
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
 from fastapi import FastAPI
 
+from models.settings import Settings, get_settings
+from models.store import migrate, wait_for_database
 from scheduler import web
 from scheduler.api import batches, flags, health
 from scheduler.api.errors import install_error_handlers
-from scheduler.settings import Settings, get_settings
+from workers.background import InProcessRunner, Sweeper
+from workers.dispatch import Dispatcher
 
 __all__ = ["create_app"]
 
@@ -34,33 +36,16 @@ Planners submit and rerun, reviewers record dispositions, every role reads.
 """
 
 
-def _dispatcher(app: FastAPI, settings: Settings) -> None:
+def _dispatcher(settings: Settings) -> Dispatcher:
+    """Where submitted jobs go: the broker when one is configured; else they wait in the job table for
+    this process's runner (which becomes the dispatcher when it starts, see ``lifespan``)."""
     if settings.broker_url is not None:
-        from sqlalchemy import update
-
-        from models.tables import Job, JobStatus, utcnow
-        from scheduler.store import session_factory, session_scope
-        from workers.celery_app import configure
-        from workers.tasks import publish
+        # Imported here: a service without a broker never loads Celery.
+        from workers.celery_app import CeleryDispatcher, configure
 
         configure(settings)
-
-        def dispatch(job_ids: list[int]) -> None:
-            unsent = publish(job_ids, settings)
-            if unsent:  # make them stale now, so the sweeper sends them once the broker is back
-                try:
-                    with session_scope(session_factory(settings)) as session:
-                        session.execute(
-                            update(Job)
-                            .where(Job.id.in_(unsent), Job.status == JobStatus.QUEUED)
-                            .values(deadline=utcnow())
-                        )
-                except Exception as exc:
-                    log.warning("could not mark %d unsent job(s): %s", len(unsent), exc)
-
-        app.state.dispatch = dispatch
-    else:
-        app.state.dispatch = lambda _ids: app.state.runner.wake() if app.state.runner else None
+        return CeleryDispatcher(settings)
+    return lambda _ids: []
 
 
 def create_app(settings: Settings | None = None, *, background: bool = True) -> FastAPI:
@@ -71,22 +56,12 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     async def lifespan(app: FastAPI) -> AsyncIterator[None]:
         sweeper = None
         if background:
-            from scheduler.store import migrate, wait_for_database
-            from workers.background import InProcessRunner, Sweeper
-
             wait_for_database(settings, log=log.warning)
             migrate(settings)
-            from workers.background import Publish
-
-            publish: Publish | None = None
-            if settings.broker_url is not None:
-                from workers import tasks
-
-                publish = functools.partial(tasks.publish, settings=settings)
-            else:
-                app.state.runner = InProcessRunner(settings)
+            if settings.broker_url is None:
+                app.state.runner = app.state.dispatch = InProcessRunner(settings)
                 app.state.runner.start()
-            sweeper = Sweeper(settings, publish)
+            sweeper = Sweeper(settings, app.state.dispatch)
             sweeper.start()
         try:
             yield
@@ -105,7 +80,7 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     )
     app.state.settings = settings
     app.state.runner = None
-    _dispatcher(app, settings)
+    app.state.dispatch = _dispatcher(settings)
     install_error_handlers(app)
     app.include_router(batches.router)
     app.include_router(flags.router)

@@ -9,11 +9,11 @@ from fastapi import Depends, Request
 from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
 from sqlalchemy.orm import Session
 
+from models.settings import Settings
+from models.store import session_factory
 from models.tables import Role
 from scheduler.api.auth import Principal, lookup_token
 from scheduler.api.errors import Forbidden, Unauthorized
-from scheduler.settings import Settings
-from scheduler.store import session_factory
 
 __all__ = ["CurrentToken", "Planner", "Reviewer", "SessionDep", "SettingsDep", "require_role"]
 

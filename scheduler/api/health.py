@@ -6,9 +6,9 @@ from fastapi import APIRouter
 from fastapi.responses import JSONResponse
 from sqlalchemy import text
 
+from models.store import engine_for
 from scheduler.api.deps import SettingsDep
 from scheduler.api.schemas import HealthPublic
-from scheduler.store import engine_for
 
 router = APIRouter(tags=["health"])
 

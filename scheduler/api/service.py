@@ -14,6 +14,8 @@ from typing import Any
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session, selectinload
 
+from models import BatchSpec, SpecError, parse_batch, with_durations
+from models.settings import Settings
 from models.tables import (
     Batch,
     BatchStatus,
@@ -42,7 +44,8 @@ from scheduler.api.schemas import (
     PartFlags,
     PartSummary,
 )
-from scheduler.settings import Settings
+from workers.jobs import suggest as suggest_step
+from workers.runner import load_batch_spec
 
 __all__ = [
     "add_disposition",
@@ -56,7 +59,7 @@ __all__ = [
     "suggest",
 ]
 
-Dispatch = Callable[[list[int]], None]
+Dispatch = Callable[[list[int]], object]  # a workers.dispatch.Dispatcher, or any sink of job ids
 
 
 def _spec_problems(exc: Exception) -> list[tuple[str, str]]:
@@ -66,16 +69,11 @@ def _spec_problems(exc: Exception) -> list[tuple[str, str]]:
     return [("", str(exc))]
 
 
-def validate(doc: Any, durations: Mapping[str, str] | None = None) -> Any:
+def validate(doc: Any, durations: Mapping[str, str] | None = None) -> BatchSpec:
     """Parse a batch file (and apply rerun durations); InvalidInput naming every bad field."""
-    from models.errors import SpecError
-    from models.loading import parse_batch
-
     try:
         spec = parse_batch(doc)
         if durations:
-            from workers.jobs import with_durations
-
             spec = with_durations(spec, dict(durations))
     except SpecError as exc:
         raise InvalidInput("the batch file is invalid", _spec_problems(exc)) from None
@@ -86,7 +84,7 @@ def _create(
     session: Session,
     settings: Settings,
     doc: Mapping[str, Any],
-    spec: Any,
+    spec: BatchSpec,
     who: Principal,
     durations: Mapping[str, str] | None = None,
     parent_id: int | None = None,
@@ -341,10 +339,6 @@ def compare(session: Session, batch_id: int, other_id: int) -> ComparePublic:
 
 def suggest(session: Session, settings: Settings, batch_id: int, step: str) -> dict[str, Any]:
     """Shortest duration of ``step`` that clears every flag of the batch (computed now, not queued)."""
-    from models.errors import SpecError
-    from workers.jobs import suggest as suggest_step
-    from workers.tasks import load_batch_spec
-
     _batch(session, batch_id)
     try:
         spec = load_batch_spec(session, batch_id, settings.database_url)

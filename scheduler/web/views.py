@@ -20,6 +20,7 @@ from models.tables import Batch, Flag, Job, Part, Result
 from scheduler.api import service
 from scheduler.api.schemas import ComparePart
 from scheduler.web.units import Units
+from workers.jobs import to_target
 
 __all__ = [
     "ChartSeries",
@@ -158,8 +159,6 @@ def _spans(t: np.ndarray[Any, Any], bad: np.ndarray[Any, Any]) -> list[tuple[flo
 def _threshold_marks(
     spec: BatchSpec, part: PartSpec, trace: dict[str, Any], flags: Sequence[dict[str, Any]], units: Units
 ) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
-    from workers.jobs import to_target
-
     windows = {name: (a, b) for name, a, b in step_windows(spec)}
     t = np.asarray(trace["time_s"], dtype=float)
     flagged = {(f["step"], f["at"], f["target"]) for f in flags}

@@ -1,0 +1,1 @@
+"""The review pages in headless Chromium, against a real API process."""

@@ -25,9 +25,9 @@ from typing import Any
 import httpx
 import pytest
 
+from models.settings import Settings
+from models.store import migrate, session_factory, session_scope
 from models.tables import Role
-from scheduler.settings import Settings
-from scheduler.store import migrate, session_factory, session_scope
 
 CHROMIUM = "/usr/bin/chromium"
 CHROMIUM_ARGS = [

@@ -21,8 +21,8 @@ import pytest
 import redis
 from sqlalchemy import text
 
-from scheduler.settings import Settings
-from scheduler.store import engine_for, migrate
+from models.settings import Settings
+from models.store import engine_for, migrate
 
 from .helpers import WorkerProcess, make_settings, make_tokens, need
 

@@ -14,9 +14,9 @@ from typing import Any
 
 import pytest
 
+from models.settings import Settings
+from models.store import session_factory, session_scope
 from models.tables import Role
-from scheduler.settings import Settings
-from scheduler.store import session_factory, session_scope
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]

@@ -8,8 +8,8 @@ from typing import Any
 
 import pytest
 
+from models.settings import Settings
 from scheduler.api import create_app
-from scheduler.settings import Settings
 
 from .helpers import TestClient, auth, batch_doc
 

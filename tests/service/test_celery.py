@@ -7,8 +7,8 @@ from typing import Any
 
 import pytest
 
+from models.settings import Settings
 from scheduler.api import create_app
-from scheduler.settings import Settings
 
 from .conftest import REDIS_URL
 from .helpers import TestClient, assert_complete_exactly_once, auth, batch_doc, store_counts, wait_for

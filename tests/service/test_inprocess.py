@@ -8,8 +8,8 @@ from typing import Any
 
 import pytest
 
+from models.settings import Settings, default_database_url
 from scheduler.api import create_app
-from scheduler.settings import Settings, default_database_url
 
 from .helpers import TestClient, auth, batch_doc, make_settings, make_tokens, wait_for
 
@@ -98,7 +98,7 @@ def test_sqlite_default_path(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) ->
     assert default_database_url() == f"sqlite:///{expected}"
     settings = make_settings(Settings().database_url)
     assert settings.sqlite_path == expected
-    from scheduler.store import migrate
+    from models.store import migrate
 
     migrate(settings)
     assert expected.is_file()

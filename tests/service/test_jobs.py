@@ -11,13 +11,14 @@ from typing import Any
 import pytest
 from sqlalchemy import select, update
 
+from models.repository import finish_batch
+from models.settings import Settings
+from models.store import session_factory, session_scope
 from models.tables import Batch, Job, Result, Role, utcnow
 from scheduler.api import service
 from scheduler.api.auth import Principal
-from scheduler.settings import Settings
-from scheduler.store import session_factory, session_scope
 from workers.background import claim_next_job, sweep_once
-from workers.tasks import execute_job, finish_batch
+from workers.runner import execute_job
 
 from .helpers import assert_complete_exactly_once, batch_doc, store_counts
 

@@ -13,8 +13,8 @@ from typing import Any
 import pytest
 import redis
 
+from models.settings import Settings
 from scheduler.api import create_app
-from scheduler.settings import Settings
 
 from .helpers import (
     TestClient,

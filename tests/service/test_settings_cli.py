@@ -14,8 +14,8 @@ import typer
 import yaml
 from typer.testing import CliRunner
 
+from models.settings import Settings, SettingsError, load_settings
 from scheduler.service_cli import register
-from scheduler.settings import Settings, SettingsError, load_settings
 
 from .helpers import LAUNCH, ROOT, batch_doc, free_port, make_settings, wait_for
 
@@ -71,8 +71,8 @@ def test_token_create_prints_token_last_and_stores_only_its_hash(
 ) -> None:
     from sqlalchemy import select
 
+    from models.store import session_factory
     from models.tables import ApiToken
-    from scheduler.store import session_factory
 
     monkeypatch.setenv("SOAKLINE_DATABASE_URL", pg_settings.database_url)
     result = CliRunner().invoke(_cli(), ["token", "create", "anna", "--role", "reviewer"])

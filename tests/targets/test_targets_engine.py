@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
 import pytest
@@ -18,7 +19,7 @@ KELVIN = 273.15
 
 def plate_batch(
     htc: str, thickness_m: float, hold_c: float, initial: str, ambient: str, hours: float
-) -> dict:
+) -> dict[str, Any]:
     return {
         "batch": "reference",
         "schedule": [{"name": "heat", "duration": f"{hours} h", "ambient": ambient, "htc": htc}],
@@ -75,10 +76,10 @@ def test_tempering_parameter_of_an_isothermal_engine_trace() -> None:
     assert p == pytest.approx((600 + KELVIN) * (20 + math.log10(2.5)), abs=1.0)
 
 
-def test_trace_json_is_rounded_and_sized(batch_doc: dict) -> None:
+def test_trace_json_is_rounded_and_sized(batch_doc: dict[str, Any]) -> None:
     result = run_batch(parse_batch(batch_doc))
     tr = result["parts"][0]["trace"]
     assert len(tr["time_s"]) == 3 * 120 + 1
     assert set(tr) == {"time_s", "core_c", "surface_c", "ambient_c", "bound_k"}
-    assert all(round(v, 2) == v for v in tr["core_c"])
-    assert np.all(np.diff(tr["time_s"]) > 0)
+    assert all(v is not None and round(v, 2) == v for v in tr["core_c"])
+    assert np.all(np.diff(np.asarray(tr["time_s"], dtype=float)) > 0)

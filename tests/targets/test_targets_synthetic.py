@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 import numpy as np
 import pytest
@@ -21,7 +22,7 @@ KELVIN = 273.15
 
 
 def trace(
-    time_s: list[float], steps: list[int], core: list[float], surface: list[float] | None = None
+    time_s: Sequence[float], steps: list[int], core: Sequence[float], surface: Sequence[float] | None = None
 ) -> Trace:
     """A trace with the given samples; the first sample of each step after the first is its end."""
     t = np.array(time_s, dtype=float)

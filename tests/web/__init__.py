@@ -1,0 +1,1 @@
+"""What the review pages compute without a browser: units, CSV, comparisons, safe redirects."""

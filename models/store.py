@@ -17,7 +17,7 @@ from sqlalchemy import Engine, create_engine, event, text
 from sqlalchemy.exc import DBAPIError, OperationalError
 from sqlalchemy.orm import Session, sessionmaker
 
-from scheduler.settings import Settings, get_settings
+from models.settings import Settings, get_settings
 
 __all__ = [
     "DatabaseUnavailable",
@@ -115,7 +115,7 @@ def alembic_config(database_url: str) -> Any:
     """Alembic configuration pointing at the packaged migrations and the given database."""
     from alembic.config import Config
 
-    root = resources.files("scheduler")
+    root = resources.files("models")
     config = Config(str(root / "alembic.ini"))
     config.set_main_option("script_location", str(root / "migrations"))
     # ConfigParser treats % as interpolation; a URL-encoded password must survive.

@@ -1,6 +1,6 @@
-"""Alembic environment: runs migrations on a connection handed in by ``scheduler.store.migrate``.
+"""Alembic environment: runs migrations on a connection handed in by ``models.store.migrate``.
 
-Run by hand (``alembic -c scheduler/alembic.ini upgrade head``) it connects with the URL from the
+Run by hand (``alembic -c models/alembic.ini upgrade head``) it connects with the URL from the
 configuration or, failing that, from ``SOAKLINE_DATABASE_URL``.
 """
 
@@ -9,6 +9,7 @@ from __future__ import annotations
 from alembic import context
 from sqlalchemy import Connection, create_engine
 
+from models.settings import get_settings
 from models.tables import Base
 
 config = context.config
@@ -34,8 +35,6 @@ def run_migrations_online() -> None:
         return
     url = config.get_main_option("sqlalchemy.url")
     if not url:
-        from scheduler.settings import get_settings
-
         url = get_settings().database_url
     engine = create_engine(url)
     with engine.begin() as conn:

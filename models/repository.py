@@ -1,0 +1,305 @@
+"""The job rows' repository: every statement that moves a job or closes a batch, each written once.
+
+A job row is the unit of queued work (one part of one batch). Its life: ``queued`` -> claimed
+(``running``, with a deadline) -> ``done`` with its result, or ``failed`` with its error; a job past its
+deadline is queued again by the sweeper. Every move is a guarded UPDATE (or a row lock), so that any
+number of workers, runners and sweepers can act at once without a job being taken twice or a batch
+closed twice. The functions take a session and never commit: the caller owns the transaction.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from datetime import datetime, timedelta
+from typing import Any, NamedTuple, cast
+
+from sqlalchemy import CursorResult, case, func, select, update
+from sqlalchemy.dialects import postgresql, sqlite
+from sqlalchemy.orm import Session
+
+from models.results import PartResult, json_safe
+from models.settings import Settings
+from models.tables import Batch, BatchStatus, Flag, Job, JobStatus, Result, utcnow
+
+__all__ = [
+    "StaleJob",
+    "claim",
+    "claim_next",
+    "claim_siblings",
+    "fail_job",
+    "find_stale",
+    "finish_batch",
+    "mark_unsent",
+    "open_batch_ids",
+    "release",
+    "requeue_stale",
+    "save_result",
+]
+
+_UNFINISHED = (JobStatus.QUEUED, JobStatus.RUNNING)
+_FINISHED = (JobStatus.DONE, JobStatus.FAILED)
+
+
+def _guarded(stmt: Any) -> Any:
+    return stmt.execution_options(synchronize_session=False)
+
+
+def _hit(session: Session, stmt: Any) -> bool:
+    """Run a guarded UPDATE; True when it changed a row (the guard held)."""
+    result = cast(CursorResult[Any], session.execute(_guarded(stmt)))
+    return bool(result.rowcount)
+
+
+# -- taking jobs --------------------------------------------------------------------------------------
+
+
+def claim(
+    session: Session, job_id: int, settings: Settings, *, count_attempt: bool, claimed: bool
+) -> tuple[Job | None, bool]:
+    """Lock the job row and mark it running (or failed past its attempts); True when the caller runs it.
+
+    A job whose result is stored is already ``done``: result and status are written together. A job
+    another worker is running (a sibling it took, see :func:`claim_siblings`) is left to it until its
+    deadline; after that the sweeper queues it again. ``claimed`` says the caller already marked it
+    running (:func:`claim_next`). The batch goes from queued to running with its first job.
+    """
+    job = session.get(Job, job_id, with_for_update=True)
+    if job is None or job.status in _FINISHED:
+        return job, False
+    if job.status == JobStatus.RUNNING and not claimed and job.deadline > utcnow():
+        return job, False
+    if count_attempt:
+        job.attempts += 1
+    if job.attempts > settings.max_attempts:
+        job.status = JobStatus.FAILED
+        job.error = f"gave up after {settings.max_attempts} attempts (worker lost or timed out each time)"
+        return job, False
+    job.status = JobStatus.RUNNING
+    job.deadline = utcnow() + timedelta(seconds=settings.job_timeout_s)
+    _hit(
+        session,
+        update(Batch)
+        .where(Batch.id == job.batch_id, Batch.status == BatchStatus.QUEUED)
+        .values(status=BatchStatus.RUNNING.value),
+    )
+    return job, True
+
+
+def claim_siblings(session: Session, job: Job, settings: Settings) -> list[Job]:
+    """Take more queued parts of the same batch, to compute them in one vectorised engine call.
+
+    The engine is much faster per part on a group than part by part, so a worker takes up to
+    ``SOAKLINE_GROUP_PARTS`` jobs at once -- but never more than half of what is still queued, so
+    that the other workers get a share of a small batch. Their own messages, when they arrive, find
+    them running or done and are skipped. Rows are locked with SKIP LOCKED: two workers never take
+    the same sibling.
+    """
+    if settings.group_parts <= 1:
+        return []
+    queued = session.scalar(
+        select(func.count())
+        .select_from(Job)
+        .where(Job.batch_id == job.batch_id, Job.status == JobStatus.QUEUED)
+    )
+    take = min(settings.group_parts - 1, math.ceil((queued or 0) / 2))
+    if take <= 0:
+        return []
+    rows = list(
+        session.scalars(
+            select(Job)
+            .where(Job.batch_id == job.batch_id, Job.status == JobStatus.QUEUED, Job.id != job.id)
+            .order_by(Job.id)
+            .limit(take)
+            .with_for_update(skip_locked=True)
+        )
+    )
+    for row in rows:
+        row.status = JobStatus.RUNNING
+        row.attempts += 1
+        row.deadline = job.deadline
+    return rows
+
+
+def claim_next(session: Session, settings: Settings, tries: int = 5) -> int | None:
+    """Take the oldest queued job (guarded update) for an in-process runner; None when there is none."""
+    for _ in range(tries):
+        job_id = session.scalar(
+            select(Job.id).where(Job.status == JobStatus.QUEUED).order_by(Job.id).limit(1)
+        )
+        if job_id is None:
+            return None
+        deadline = utcnow() + timedelta(seconds=settings.job_timeout_s)
+        if _hit(
+            session,
+            update(Job)
+            .where(Job.id == job_id, Job.status == JobStatus.QUEUED)
+            .values(status=JobStatus.RUNNING.value, deadline=deadline),
+        ):
+            return job_id
+    return None
+
+
+def release(session: Session, job_id: int) -> None:
+    """Put a running job back in line at once (a transient error), instead of at its deadline."""
+    _hit(
+        session,
+        update(Job)
+        .where(Job.id == job_id, Job.status == JobStatus.RUNNING)
+        .values(status=JobStatus.QUEUED.value),
+    )
+
+
+# -- results ------------------------------------------------------------------------------------------
+
+
+def _insert_ignore(session: Session, table: Any) -> Any:
+    dialect = session.get_bind().dialect.name
+    return (postgresql.insert if dialect == "postgresql" else sqlite.insert)(table)
+
+
+def save_result(session: Session, job: Job, result: PartResult) -> bool:
+    """Store a part's result and flags once and mark its job done; True when this call wrote them.
+
+    The insert is ``ON CONFLICT DO NOTHING`` on (batch, part) and the flags go in only when it took,
+    all in the caller's transaction: a duplicate delivery changes nothing.
+    """
+    body = json_safe(result)
+    assert isinstance(body, dict)
+    flags: list[dict[str, Any]] = body["flags"]
+    stmt = (
+        _insert_ignore(session, Result)
+        .values(
+            batch_id=job.batch_id,
+            part_id=job.part_id,
+            flagged=bool(result["flagged"]),
+            body=body,
+            created_at=utcnow(),
+        )
+        .on_conflict_do_nothing(index_elements=["batch_id", "part_id"])
+        .returning(Result.id)
+    )
+    inserted = session.execute(stmt).scalar_one_or_none() is not None
+    if inserted and flags:
+        session.execute(
+            _insert_ignore(session, Flag)
+            .values(
+                [
+                    {
+                        "batch_id": job.batch_id,
+                        "part_id": job.part_id,
+                        "seq": seq,
+                        "step": flag["step"],
+                        "at": flag["at"],
+                        "target": flag["target"],
+                        "status": "open",
+                        "body": flag,
+                        "created_at": utcnow(),
+                    }
+                    for seq, flag in enumerate(flags)
+                ]
+            )
+            .on_conflict_do_nothing(index_elements=["batch_id", "part_id", "seq"])
+        )
+    job.status = JobStatus.DONE
+    job.error = None
+    return inserted
+
+
+def fail_job(job: Job, error: str) -> None:
+    """The part cannot be computed: the job ends ``failed`` with what went wrong."""
+    job.status = JobStatus.FAILED
+    job.error = error[:2000]
+
+
+def finish_batch(session: Session, batch_id: int) -> bool:
+    """Mark the batch done or failed when every job row is finished; True when this call did it.
+
+    The UPDATE is guarded by the batch's current status and by a count of finished job rows, so that of
+    several workers finishing the last parts at once exactly one flips it, and only once all are in.
+    A cheap look for any unfinished job comes first: while one exists, that job's own finish (which
+    commits later and so sees this one) is the one that can close the batch.
+    """
+    unfinished = session.scalar(
+        select(Job.id).where(Job.batch_id == batch_id, Job.status.in_(_UNFINISHED)).limit(1)
+    )
+    if unfinished is not None:
+        return False
+    finished = (
+        select(func.count())
+        .select_from(Job)
+        .where(Job.batch_id == batch_id, Job.status.in_(_FINISHED))
+        .scalar_subquery()
+    )
+    failed = (
+        select(func.count())
+        .select_from(Job)
+        .where(Job.batch_id == batch_id, Job.status == JobStatus.FAILED)
+        .scalar_subquery()
+    )
+    return _hit(
+        session,
+        update(Batch)
+        .where(
+            Batch.id == batch_id,
+            Batch.status.in_([BatchStatus.QUEUED, BatchStatus.RUNNING]),
+            finished >= Batch.part_count,
+        )
+        .values(
+            status=case((failed > 0, BatchStatus.FAILED.value), else_=BatchStatus.DONE.value),
+            finished_at=utcnow(),
+        ),
+    )
+
+
+def open_batch_ids(session: Session, limit: int = 500) -> Sequence[int]:
+    """Batches still queued or running (the sweeper tries to close them)."""
+    return session.scalars(
+        select(Batch.id).where(Batch.status.in_([BatchStatus.QUEUED, BatchStatus.RUNNING])).limit(limit)
+    ).all()
+
+
+# -- stale and unsent jobs ----------------------------------------------------------------------------
+
+
+class StaleJob(NamedTuple):
+    id: int
+    status: str
+
+
+def find_stale(session: Session, now: datetime, limit: int = 1000) -> list[StaleJob]:
+    """Queued or running jobs past their deadline, oldest first."""
+    rows = session.execute(
+        select(Job.id, Job.status)
+        .where(Job.status.in_(_UNFINISHED), Job.deadline < now)
+        .order_by(Job.id)
+        .limit(limit)
+    )
+    return [StaleJob(job_id, status) for job_id, status in rows]
+
+
+def requeue_stale(session: Session, job_ids: Sequence[int], now: datetime, deadline: datetime) -> list[int]:
+    """Queue these jobs again if they are still stale at ``now``; the ids this call re-queued.
+
+    Guarded by the deadline: of several sweepers looking at once, one re-queues each job.
+    """
+    return [
+        job_id
+        for job_id in job_ids
+        if _hit(
+            session,
+            update(Job)
+            .where(Job.id == job_id, Job.status.in_(_UNFINISHED), Job.deadline < now)
+            .values(status=JobStatus.QUEUED.value, deadline=deadline),
+        )
+    ]
+
+
+def mark_unsent(session: Session, job_ids: Sequence[int]) -> None:
+    """Queued jobs whose message could not be sent become stale now, so the sweeper sends them later."""
+    _hit(
+        session,
+        update(Job)
+        .where(Job.id.in_(list(job_ids)), Job.status == JobStatus.QUEUED)
+        .values(deadline=utcnow()),
+    )

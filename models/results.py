@@ -1,0 +1,116 @@
+"""Shapes of a computed result, as typed dictionaries: what the workers produce, the store keeps and the
+API and pages read.
+
+They are plain JSON at run time (the result file of ``soakline run`` and the stored result rows are
+these very dictionaries), typed for the checker so that every hop names its fields. The README's
+"The result" section is the contract; ``checks``, ``steps``, ``size`` and ``material`` extend it.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from typing import NotRequired, TypedDict
+
+__all__ = [
+    "BatchResult",
+    "CheckBody",
+    "FlagBody",
+    "PartResult",
+    "StepWindow",
+    "SuggestBody",
+    "TraceBody",
+    "json_safe",
+]
+
+
+class FlagBody(TypedDict):
+    """A missed target: the contract's flag (``margin`` signed, negative is the shortfall)."""
+
+    step: str
+    at: str
+    target: str
+    required: str
+    achieved: str
+    margin: str
+    margin_value: float
+    margin_unit: str
+    message: str
+
+
+class CheckBody(FlagBody):
+    """Any target's outcome, passed or not; ``misses`` are the (start_s, end_s) spans of the trace
+    where the target is not met (empty when it passes)."""
+
+    passed: bool
+    misses: NotRequired[list[tuple[float, float]]]
+
+
+class TraceBody(TypedDict):
+    """Temperatures in degC against time in seconds from the start of the first step."""
+
+    time_s: list[float | None]
+    core_c: list[float | None]
+    surface_c: list[float | None]
+    ambient_c: list[float | None]
+    corner_c: NotRequired[list[float | None]]
+    second_surface_c: NotRequired[list[float | None]]
+    bound_k: list[float | None]
+
+
+class StepWindow(TypedDict):
+    """Where a step sits on the trace's time axis."""
+
+    name: str
+    start_s: float
+    end_s: float
+
+
+class PartResult(TypedDict):
+    """One part's entry of a result: its checks and flags, its description and its trace."""
+
+    id: str
+    flagged: bool
+    flags: list[FlagBody]
+    checks: list[CheckBody]
+    shape: str
+    size: str
+    material: str
+    trace: TraceBody
+    steps: NotRequired[list[StepWindow]]
+
+
+class BatchResult(TypedDict):
+    """The whole result of a batch (``soakline run --json``)."""
+
+    batch: str
+    parts: list[PartResult]
+    steps: list[StepWindow]
+    notice: str
+
+
+class SuggestBody(TypedDict):
+    """The shortest duration of a step that clears every target in it, or why there is none."""
+
+    step: str
+    duration_s: float | None
+    duration: str | None
+    limiting_part: str | None
+    reason: str | None
+    simulations: int
+    notice: str
+
+
+def json_safe(value: object) -> object:
+    """JSON-safe copy: numpy scalars and arrays become numbers and lists, non-finite floats None."""
+    if isinstance(value, Mapping):
+        return {str(k): json_safe(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [json_safe(v) for v in value]
+    if hasattr(value, "tolist"):
+        return json_safe(value.tolist())
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, str | int | bool) or value is None:
+        return value
+    return str(value)

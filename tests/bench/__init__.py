@@ -1,0 +1,1 @@
+"""Benchmark scripts (not tests): each prints ratios against a reference in one run."""

@@ -1,0 +1,191 @@
+"""Running one job to its end, with no queue in sight: the Celery task and the in-process runner both
+call :func:`execute_job` with a job id.
+
+A job is:
+
+1. claimed: attempts counted, deadline pushed out, the batch marked running, and up to
+   ``SOAKLINE_GROUP_PARTS`` queued sibling jobs of the same batch taken along (SKIP LOCKED);
+2. computed: the engine on the stored batch, one vectorised call for the group (``run_batch`` on the
+   group's parts; part by part with ``run_part`` if that fails), pure: no database inside;
+3. saved: each result inserted once with its flags and its job marked done, in one transaction, so a
+   duplicate delivery changes nothing;
+4. finished: the batch becomes done (or failed) by counting finished job rows in a guarded update.
+
+Database errors that pass (:func:`is_transient`) propagate for the caller to retry; any other error of
+the computation fails the part's job with its message (a bad part must not block the batch forever).
+"""
+
+from __future__ import annotations
+
+import logging
+import random
+import threading
+from collections.abc import Sequence
+from enum import StrEnum
+
+from sqlalchemy import select
+from sqlalchemy.exc import DBAPIError, InterfaceError, OperationalError
+from sqlalchemy.orm import Session
+
+from models import BatchSpec, parse_batch, with_durations
+from models import repository as jobs_repo
+from models.results import PartResult
+from models.settings import Settings, get_settings
+from models.store import session_factory, session_scope
+from models.tables import Batch, Job, JobStatus
+from workers import jobs
+
+__all__ = ["Outcome", "backoff_s", "compute", "execute_job", "is_transient", "load_batch_spec"]
+
+log = logging.getLogger(__name__)
+
+TRANSIENT_DB_ERRORS: tuple[type[BaseException], ...] = (
+    OperationalError,  # database went away, connection refused, server restarting
+    InterfaceError,  # connection closed under us
+)
+
+
+class Outcome(StrEnum):
+    """What :func:`execute_job` did with the job it was given."""
+
+    DONE = "done"
+    FAILED = "failed"
+    SKIPPED = "skipped"  # finished already, run by another worker, or given up
+
+
+def backoff_s(retries: int, cap_s: float) -> float:
+    """Exponential backoff with jitter: about 1, 2, 4 ... seconds, never above ``cap_s``."""
+    return min(cap_s, 2.0**retries) * (0.5 + random.random() / 2)
+
+
+def is_transient(exc: BaseException) -> bool:
+    """A database error that a later try can get past (the server restarting, a dropped connection)."""
+    if isinstance(exc, DBAPIError) and exc.connection_invalidated:
+        return True
+    return isinstance(exc, TRANSIENT_DB_ERRORS)
+
+
+# -- the stored batch ---------------------------------------------------------------------------------
+
+
+_SpecKey = tuple[str, int, str]
+_specs: dict[_SpecKey, BatchSpec] = {}
+_specs_lock = threading.Lock()  # the in-process runner calls this from several threads
+_SPEC_CACHE_SIZE = 32
+
+
+def load_batch_spec(session: Session, batch_id: int, database_url: str) -> BatchSpec:
+    """The validated ``BatchSpec`` of a stored batch, with a rerun's durations applied.
+
+    A stored batch never changes, so its parsed spec is kept per process, keyed by database, id and
+    creation time (ids restart in a recreated database): a 500-part file is read and validated once
+    per worker process, not once per part.
+    """
+    created = session.scalar(select(Batch.created_at).where(Batch.id == batch_id))
+    key = (database_url, batch_id, str(created))
+    with _specs_lock:
+        if key in _specs:
+            return _specs[key]
+    batch = session.get_one(Batch, batch_id)
+    spec = parse_batch(batch.spec)
+    if batch.durations:
+        spec = with_durations(spec, dict(batch.durations))
+    with _specs_lock:
+        if len(_specs) >= _SPEC_CACHE_SIZE:
+            _specs.pop(next(iter(_specs)))
+        _specs[key] = spec
+    return spec
+
+
+# -- computing ----------------------------------------------------------------------------------------
+
+
+def _error_text(exc: BaseException) -> str:
+    return f"{type(exc).__name__}: {exc}"[:2000]
+
+
+def compute(spec: BatchSpec, part_ids: Sequence[str]) -> dict[str, PartResult | Exception]:
+    """Result or exception per part: one engine call for the group, part by part if that fails.
+
+    ``jobs.run_batch`` and ``jobs.run_part`` are looked up on the module at each call, so that a test
+    can make a part fail on demand by replacing them.
+    """
+    if len(part_ids) > 1:
+        try:
+            wanted = set(part_ids)
+            sub = spec.model_copy(update={"parts": [p for p in spec.parts if p.id in wanted]})
+            return {entry["id"]: entry for entry in jobs.run_batch(sub)["parts"]}
+        except Exception as exc:
+            if is_transient(exc):
+                raise
+            log.warning("group of %d parts failed (%s); computing them one by one", len(part_ids), exc)
+    out: dict[str, PartResult | Exception] = {}
+    for part_id in part_ids:
+        try:
+            out[part_id] = jobs.run_part(spec, part_id)
+        except Exception as exc:
+            if is_transient(exc):
+                raise
+            log.exception("part %s failed", part_id)
+            out[part_id] = exc
+    return out
+
+
+# -- the job ------------------------------------------------------------------------------------------
+
+
+def _save(
+    session: Session, group: dict[int, str], results: dict[str, PartResult | Exception], error: str | None
+) -> None:
+    for job_id, part_id in sorted(group.items()):
+        row = session.get_one(Job, job_id, with_for_update=True)
+        if row.status == JobStatus.DONE:
+            continue
+        outcome = results.get(part_id)
+        if isinstance(outcome, dict):
+            jobs_repo.save_result(session, row, outcome)
+        elif isinstance(outcome, Exception):
+            jobs_repo.fail_job(row, _error_text(outcome))
+        else:
+            jobs_repo.fail_job(row, error or "the engine returned no result for this part")
+
+
+def execute_job(
+    job_id: int, settings: Settings | None = None, *, count_attempt: bool = True, claimed: bool = False
+) -> Outcome:
+    """Run one job (and the sibling jobs it takes) to the end.
+
+    ``claimed`` says the caller already marked the job running (the in-process runner).
+    """
+    settings = settings or get_settings()
+    factory = session_factory(settings)
+    spec: BatchSpec | None = None
+    error: str | None = None
+    group: dict[int, str] = {}
+    with session_scope(factory) as session:
+        job, mine = jobs_repo.claim(session, job_id, settings, count_attempt=count_attempt, claimed=claimed)
+        if job is None:
+            return Outcome.SKIPPED
+        batch_id = job.batch_id
+        if mine:
+            group = {job.id: job.part_id}
+            try:
+                spec = load_batch_spec(session, batch_id, settings.database_url)
+                group |= {s.id: s.part_id for s in jobs_repo.claim_siblings(session, job, settings)}
+            except Exception as exc:
+                if is_transient(exc):
+                    raise
+                log.exception("batch %s: its stored file no longer validates", batch_id)
+                error = _error_text(exc)
+    if not group:
+        with session_scope(factory) as session:
+            jobs_repo.finish_batch(session, batch_id)
+        return Outcome.SKIPPED
+
+    results = compute(spec, list(group.values())) if spec is not None and error is None else {}
+    with session_scope(factory) as session:
+        _save(session, group, results, error)
+    # Separate transaction: the count must see this job's committed row (see finish_batch).
+    with session_scope(factory) as session:
+        jobs_repo.finish_batch(session, batch_id)
+    return Outcome.DONE if isinstance(results.get(group[job_id]), dict) else Outcome.FAILED

@@ -62,17 +62,22 @@ def test_boiling_media_depend_on_surface_temperature_and_others_do_not() -> None
         assert catalog.get_medium(name).htc.is_constant is (name not in BOILING), name
 
 
-def test_oil_and_polymer_match_buczek_and_telejko() -> None:
-    # Buczek and Telejko, Int. J. Heat Fluid Flow 44 (2013): oil 0.5 kW/m2K at 800 and 150 C,
-    # peak 4.7-6.0 kW/m2K at 520-550 C; polymer 3.2 at 800 C, peak 7.4, 2.0 at 150 C.
-    for name in ("oil-still", "oil-agitated"):
+def test_oil_and_polymer_keep_the_shape_buczek_and_telejko_measured() -> None:
+    # read: Buczek and Telejko, Int. J. Heat Fluid Flow 44 (2013): oil 0.5 kW/m2K at 800 and 150 C,
+    # peak 4.7-6.0 kW/m2K at 520-550 C; polymer 3.2 at 800 C, peak 7.4, 2.0 at 150 C. The catalog keeps
+    # the shape (each value over the peak, and where the peak lies); the level is the handbook severity's
+    # (tests/engine/test_media_severity.py).
+    for name, peak_kw in (("oil-still", 4.7), ("oil-agitated", 6.0)):
         htc = catalog.get_medium(name).htc
-        assert htc.at(800.0) == pytest.approx(500.0)
-        assert htc.at(150.0) == pytest.approx(500.0)
-        peak = int(np.argmax(htc.value))
-        assert 4700.0 <= htc.value[peak] <= 6000.0 and 520.0 <= htc.temp_c[peak] <= 550.0
+        top = int(np.argmax(htc.value))
+        assert 520.0 <= htc.temp_c[top] <= 550.0, name
+        assert htc.at(800.0) / htc.value[top] == pytest.approx(0.5 / peak_kw, rel=0.01), name
+        assert htc.at(150.0) / htc.value[top] == pytest.approx(0.5 / peak_kw, rel=0.01), name
     polymer = catalog.get_medium("polymer").htc
-    assert (polymer.at(800.0), max(polymer.value), polymer.at(150.0)) == pytest.approx((3200, 7400, 2000))
+    highest = max(polymer.value)
+    assert (polymer.at(800.0) / highest, polymer.at(150.0) / highest) == pytest.approx(
+        (3.2 / 7.4, 2.0 / 7.4), rel=0.01
+    )
 
 
 def _en1993_k(t: float) -> float:

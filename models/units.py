@@ -7,6 +7,10 @@ raises a ``ValueError`` whose message can be shown to the user as it is.
 
 "C" and "F" are read as Celsius and Fahrenheit (pint alone would read coulomb and farad). Inside a
 compound unit such as "Btu/(h ft^2 F)" a temperature is always a difference.
+
+A duration may be written in parts, as soakline prints long ones and as people say them: "2 h 30 min",
+"1 h 5 min 30 s", "2h30min". The parts are added; a sign, if any, stands before the first and applies
+to the whole.
 """
 
 from __future__ import annotations
@@ -126,6 +130,36 @@ def _absolute_scale(unit: str) -> str | None:
     return None
 
 
+_PART = r"(?:\d+(?:\.\d*)?|\.\d+)\s*[A-Za-z]+"
+_COMPOUND = re.compile(rf"^\s*(?P<sign>[-+]?)\s*(?P<parts>{_PART}(?:\s*{_PART})+)\s*$")
+_UNIT_MISSING = re.compile(rf"^\s*[-+]?\s*(?:{_PART}\s*)+(?:\d+(?:\.\d*)?|\.\d+)\s*$")
+_PARTS = re.compile(r"(?P<num>\d+(?:\.\d*)?|\.\d+)\s*(?P<unit>[A-Za-z]+)")
+
+
+@lru_cache(maxsize=4096)
+def _parse_duration(text: str) -> float:
+    """A time in seconds, one value ("90 min") or several added ("1 h 5 min 30 s")."""
+    try:
+        return _parse_named(text, TIME)
+    except ValueError:
+        match = _COMPOUND.match(text)
+        if match is None:
+            if _UNIT_MISSING.match(text):
+                raise ValueError(f"{_expected(TIME, text)}: its last number has no unit") from None
+            raise
+    total = 0.0
+    for part in _PARTS.finditer(match["parts"]):
+        piece = f"{part['num']} {part['unit']}"
+        try:
+            total += _parse_named(piece, TIME)
+        except ValueError:
+            raise ValueError(
+                f"{_expected(TIME, text)}: '{piece}' is not a time (write each part as a number and "
+                f"h, min or s, as in '2 h 30 min')"
+            ) from None
+    return -total if match["sign"] == "-" else total
+
+
 @lru_cache(maxsize=4096)
 def _parse_temperature(text: str) -> float:
     value, unit = _split(text, TEMPERATURE)
@@ -161,6 +195,8 @@ def parse_quantity(text: object, kind: Kind) -> float:
         return _parse_temperature(text)
     if kind is TEMPERATURE_DELTA:
         return _parse_delta(text)
+    if kind is TIME:
+        return _parse_duration(text)
     return _parse_named(text, kind)
 
 
@@ -170,7 +206,7 @@ def parse_length(text: object) -> float:
 
 
 def parse_time(text: object) -> float:
-    """A duration in seconds ("90 s", "10 min", "3 h")."""
+    """A duration in seconds ("90 s", "10 min", "3 h", or in parts: "2 h 30 min", "1 h 5 min 30 s")."""
     return parse_quantity(text, TIME)
 
 

@@ -25,6 +25,12 @@ BTU_H_FT2_F = BTU_J / 3600.0 / FT_M**2 / (5.0 / 9.0)
         (units.parse_time, "90 s", 90.0),
         (units.parse_time, "10 min", 600.0),
         (units.parse_time, "3 h", 10800.0),
+        (units.parse_time, "2 h 30 min", 9000.0),
+        (units.parse_time, "2 h 05 min", 7500.0),
+        (units.parse_time, "1 h 5 min 30 s", 3930.0),
+        (units.parse_time, "2h30min", 9000.0),
+        (units.parse_time, "1 hour 15 minutes", 4500.0),
+        (units.parse_time, "-2 h 05 min", -7500.0),
         (units.parse_temperature, "860 degC", 860.0),
         (units.parse_temperature, "860 C", 860.0),
         (units.parse_temperature, "860 °C", 860.0),
@@ -53,6 +59,20 @@ def test_parses_to_si(parser: object, text: str, expected: float) -> None:
     assert callable(parser)
     # pint rounds the Btu to 1055.056 J, a few parts in 1e7 off the exact definition
     assert parser(text) == pytest.approx(expected, rel=1e-6, abs=1e-9)
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        ("2 h 30", "its last number has no unit"),
+        ("2 h 30 m", "'30 m' is not a time"),
+        ("2 h 30 min 5 kg", "'5 kg' is not a time"),
+        ("2 h, 30 min", "cannot read the unit"),
+    ],
+)
+def test_a_duration_in_parts_names_the_part_that_is_wrong(text: str, expected: str) -> None:
+    with pytest.raises(ValueError, match=expected):
+        units.parse_time(text)
 
 
 def test_fahrenheit_difference_in_htc_is_not_offset() -> None:

@@ -22,6 +22,7 @@ from models.catalog import (
 )
 from models.errors import Problem, SpecError
 from models.loading import format_path, load_batch_file, parse_batch, with_durations, with_step_durations
+from models.plausibility import target_warnings
 from models.spec import (
     BatchSpec,
     InlineMaterialSpec,
@@ -75,6 +76,7 @@ __all__ = [
     "parse_temperature",
     "parse_temperature_delta",
     "parse_time",
+    "target_warnings",
     "ureg",
     "with_durations",
     "with_step_durations",

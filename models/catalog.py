@@ -187,6 +187,51 @@ def hollomon_jaffe_constant() -> tuple[float, str]:
     return float(raw["constant"]), " ".join(str(raw["source"]).split())
 
 
+@dataclass(frozen=True)
+class Bounds:
+    """What a steel target can physically mean (``plausibility.yaml``), each bound with its source."""
+
+    melting_c: float
+    melting_source: str
+    lower_critical_c: float
+    lower_critical_source: str
+    temper_lowest_c: float
+    temper_shortest_h: float
+    temper_longest_h: float
+    temper_source: str
+    constant_low: float
+    constant_high: float
+    constant_source: str
+
+
+@cache
+def bounds() -> Bounds:
+    """Bounds of plausible targets, for warnings."""
+    raw = _read("plausibility.yaml")
+    try:
+        melt, critical, temper, const = (
+            raw["steel_melting"],
+            raw["lower_critical"],
+            raw["tempering"],
+            raw["hollomon_jaffe_constant"],
+        )
+        return Bounds(
+            melting_c=float(melt["temperature_c"]),
+            melting_source=_text(melt, "source"),
+            lower_critical_c=float(critical["temperature_c"]),
+            lower_critical_source=_text(critical, "source"),
+            temper_lowest_c=float(temper["lowest_c"]),
+            temper_shortest_h=float(temper["shortest_h"]),
+            temper_longest_h=float(temper["longest_h"]),
+            temper_source=_text(temper, "source"),
+            constant_low=float(const["low"]),
+            constant_high=float(const["high"]),
+            constant_source=_text(const, "source"),
+        )
+    except (KeyError, TypeError, ValueError) as exc:
+        raise CatalogError(f"plausibility.yaml: {exc!r}") from None
+
+
 def material_names() -> tuple[str, ...]:
     return tuple(materials())
 

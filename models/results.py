@@ -20,6 +20,7 @@ __all__ = [
     "StepWindow",
     "SuggestBody",
     "TraceBody",
+    "WarningBody",
     "json_safe",
 ]
 
@@ -80,12 +81,20 @@ class PartResult(TypedDict):
     steps: NotRequired[list[StepWindow]]
 
 
+class WarningBody(TypedDict):
+    """A target that looks physically wrong, computed anyway, at its field path."""
+
+    path: str
+    message: str
+
+
 class BatchResult(TypedDict):
     """The whole result of a batch (``soakline run --json``)."""
 
     batch: str
     parts: list[PartResult]
     steps: list[StepWindow]
+    warnings: list[WarningBody]
     notice: str
 
 

@@ -13,9 +13,9 @@ from typing import Any
 
 import numpy as np
 
-from models import BatchSpec, PartSpec, SpecError, TargetSpec
+from models import BatchSpec, PartSpec, SpecError, TargetSpec, target_warnings
 from models import limits as _limits
-from models.results import BatchResult, PartResult, StepWindow, SuggestBody, TraceBody
+from models.results import BatchResult, PartResult, StepWindow, SuggestBody, TraceBody, WarningBody
 from workers.convert import engine_inputs, to_part, to_step
 from workers.targets import Check, Target, evaluate, format_duration
 from workers.thermal import PartThermal, Step, Tolerance, Trace, simulate
@@ -28,6 +28,7 @@ __all__ = [
     "run_batch",
     "run_part",
     "suggest",
+    "warnings_json",
 ]
 
 NOTICE = (
@@ -173,8 +174,14 @@ def run_batch(
         "batch": batch.batch,
         "parts": [_part_entry(batch, p, tr) for p, tr in zip(batch.parts, traces, strict=True)],
         "steps": _steps_json(batch),
+        "warnings": warnings_json(batch),
         "notice": NOTICE,
     }
+
+
+def warnings_json(batch: BatchSpec) -> list[WarningBody]:
+    """Targets that look physically wrong (computed anyway), each at its field path."""
+    return [{"path": w.path, "message": w.message} for w in target_warnings(batch)]
 
 
 def _find_part(batch: BatchSpec, part_id: str) -> PartSpec:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import Annotated, Any, Literal
 
 from pydantic import BeforeValidator, Field
@@ -134,6 +134,22 @@ class PartSpec(SpecModel):
     @property
     def initial_c(self) -> float:
         return units.parse_temperature(self.initial)
+
+    @property
+    def material_name(self) -> str:
+        """The catalog name, or "inline" for properties given in the file."""
+        return self.material if isinstance(self.material, str) else "inline"
+
+    def size_text(self, length: Callable[[str, float], str], times: str = "×") -> str:
+        """The section sizes for people: "50 mm", "dia 80 mm", "50 mm × 200 mm × 400 mm".
+
+        ``length(text, metres)`` writes one size: the text as the file gave it, or a conversion.
+        """
+        sizes = [
+            length(text, units.parse_length(text)) for f in SIZES[self.shape] if (text := getattr(self, f))
+        ]
+        prefix = "dia " if self.shape in ("bar", "cylinder") else ""
+        return prefix + f" {times} ".join(sizes)
 
     @property
     def material_data(self) -> catalog.MaterialData:

@@ -40,17 +40,19 @@ class FlagBody(TypedDict):
 
 
 class CheckBody(FlagBody):
-    """Any target's outcome, passed or not; ``misses`` are the (start_s, end_s) spans of the trace
-    where the target is not met (empty when it passes)."""
+    """Any target's outcome, passed or not. ``limit`` is the target's value (degC, K or P by kind);
+    ``misses`` are the [start_s, end_s] spans of the trace where a missed temperature target is not
+    met (none when it passes, and none for a difference or a tempering parameter)."""
 
     passed: bool
-    misses: NotRequired[list[tuple[float, float]]]
+    limit: float
+    misses: list[list[float]]
 
 
 class TraceBody(TypedDict):
     """Temperatures in degC against time in seconds from the start of the first step."""
 
-    time_s: list[float | None]
+    time_s: list[float]
     core_c: list[float | None]
     surface_c: list[float | None]
     ambient_c: list[float | None]

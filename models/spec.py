@@ -1,4 +1,4 @@
-"""The batch file (DESIGN.md section 4) as pydantic models: one schedule, many parts, their targets.
+"""The batch file (README, "The batch file") as pydantic models: one schedule, many parts, their targets.
 
 ``BatchSpec`` is the root. Values stay as the user wrote them ("2 in", "1580 degF") for display;
 properties such as ``duration_s``, ``ambient_c`` and ``thickness_m`` give SI. Rules across fields
@@ -8,13 +8,12 @@ wrong, so one pass reports every problem.
 
 from __future__ import annotations
 
-import datetime as dt
 from collections.abc import Mapping
 from typing import Any
 
 from models import limits, units
 from models.base import Loc, RuleProblem, SpecModel, as_raw
-from models.fields import Text
+from models.fields import Text, check_text
 from models.parts import InlineMaterialSpec, PartSpec
 from models.steps import LowerFaceSpec, StepSpec
 from models.targets import TargetKind, TargetSpec
@@ -31,10 +30,11 @@ __all__ = [
 
 
 def _text(value: object) -> str | None:
-    """The text a label would validate to, or None when it would not validate."""
-    if isinstance(value, bool) or not isinstance(value, str | int | float | dt.date):
+    """The text a label or name validates to, or None when it does not (its own field says why)."""
+    try:
+        return check_text(value)
+    except ValueError:
         return None
-    return str(value).strip() or None
 
 
 def _mappings(raw: Mapping[str, Any], key: str) -> list[tuple[int, Mapping[str, Any]]]:

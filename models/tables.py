@@ -123,7 +123,9 @@ class Base(DeclarativeBase):
 
 
 class Batch(Base):
-    """A submitted batch file (kept verbatim) and, for a rerun, its parent and step durations."""
+    """A submitted batch: the file as sent (kept verbatim, for the record), the resolved batch that every
+    later reader uses (validated once at submit, a rerun's durations applied; see ``models.resolved``)
+    and, for a rerun, its parent and the step durations changed from the original file."""
 
     __tablename__ = "batches"
 
@@ -131,6 +133,8 @@ class Batch(Base):
     label: Mapped[str] = mapped_column(String(200))
     status: Mapped[str] = mapped_column(String(16), default=BatchStatus.QUEUED, index=True)
     spec: Mapped[dict[str, Any]] = mapped_column(JsonType)
+    # None only for a batch stored before this column whose file no longer validated at the upgrade.
+    resolved: Mapped[dict[str, Any] | None] = mapped_column(JsonType)
     durations: Mapped[dict[str, str]] = mapped_column(JsonType, default=dict)
     parent_id: Mapped[int | None] = mapped_column(ForeignKey("batches.id"), index=True)
     part_count: Mapped[int] = mapped_column(Integer)

@@ -1,7 +1,7 @@
 """The job code the CLI and the service workers share: run a batch, run one part, suggest a soak.
 
 Everything here takes a validated ``BatchSpec`` and returns plain JSON-ready dicts in the shape of the
-result contract (DESIGN.md section 4), extended with ``checks`` (every target, pass or fail), part
+result contract (README, "The result"), extended with ``checks`` (every target, pass or fail), part
 descriptions, step boundaries and the safety notice. No database, no queue: callers store the result.
 """
 
@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -27,6 +28,7 @@ __all__ = [
     "part_checks",
     "run_batch",
     "run_part",
+    "step_windows",
     "suggest",
     "warnings_json",
 ]
@@ -49,18 +51,8 @@ Progress = Callable[[int, int], None]
 
 
 def describe_part(part: PartSpec) -> str:
-    """Shape and size as the file gave them: "plate 50 mm", "bar dia 80 mm", "block 50 x 200 x 400 mm"."""
-    if part.shape == "plate":
-        return f"plate {part.thickness}"
-    if part.shape == "bar":
-        return f"bar dia {part.diameter}"
-    if part.shape == "block":
-        return f"block {part.thickness} x {part.width} x {part.length}"
-    return f"cylinder dia {part.diameter} x {part.length}"
-
-
-def _material_name(part: PartSpec) -> str:
-    return part.material if isinstance(part.material, str) else "inline"
+    """Shape and size as the file gave them: "plate 50 mm", "bar dia 80 mm", "block 50 mm x 200 mm x ..."."""
+    return f"{part.shape} {part.size_text(lambda text, _m: text, times='x')}"
 
 
 def to_target(spec: TargetSpec, batch: BatchSpec) -> Target:
@@ -108,7 +100,7 @@ def _bounds(values: np.ndarray[Any, Any]) -> list[float | None]:
 
 def _trace_json(trace: Trace) -> TraceBody:
     out: TraceBody = {
-        "time_s": _floats(trace.time_s, _TIME_DECIMALS),
+        "time_s": [float(v) for v in np.round(np.asarray(trace.time_s, dtype=float), _TIME_DECIMALS)],
         "core_c": _floats(trace.core_c, _TEMP_DECIMALS),
         "surface_c": _floats(trace.surface_c, _TEMP_DECIMALS),
         "ambient_c": _floats(trace.ambient_c, _TEMP_DECIMALS),
@@ -121,7 +113,7 @@ def _trace_json(trace: Trace) -> TraceBody:
     return out
 
 
-def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace) -> PartResult:
+def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace, steps: list[StepWindow]) -> PartResult:
     checks = part_checks(batch, part, trace)
     flags = [c.flag_dict() for c in checks if not c.passed]
     return {
@@ -131,12 +123,14 @@ def _part_entry(batch: BatchSpec, part: PartSpec, trace: Trace) -> PartResult:
         "checks": [c.as_dict() for c in checks],
         "shape": part.shape,
         "size": describe_part(part),
-        "material": _material_name(part),
+        "material": part.material_name,
         "trace": _trace_json(trace),
+        "steps": steps,
     }
 
 
-def _steps_json(batch: BatchSpec) -> list[StepWindow]:
+def step_windows(batch: BatchSpec) -> list[StepWindow]:
+    """Where each step sits on the trace's time axis (seconds from the start of the first step)."""
     out: list[StepWindow] = []
     start = 0.0
     for s in batch.schedule:
@@ -170,10 +164,11 @@ def run_batch(
         traces += _simulate(parts[first : first + chunk], steps, tol)
         if progress is not None:
             progress(len(traces), total)
+    windows = step_windows(batch)
     return {
         "batch": batch.batch,
-        "parts": [_part_entry(batch, p, tr) for p, tr in zip(batch.parts, traces, strict=True)],
-        "steps": _steps_json(batch),
+        "parts": [_part_entry(batch, p, tr, windows) for p, tr in zip(batch.parts, traces, strict=True)],
+        "steps": windows,
         "warnings": warnings_json(batch),
         "notice": NOTICE,
     }
@@ -195,7 +190,7 @@ def run_part(batch: BatchSpec, part_id: str, *, tol: Tolerance | None = None) ->
     """One part's entry of the result (same shape as in ``run_batch``), computed on its own."""
     part = _find_part(batch, part_id)
     trace = _simulate([to_part(part)], [to_step(s) for s in batch.schedule], tol)[0]
-    return _part_entry(batch, part, trace)
+    return _part_entry(batch, part, trace, step_windows(batch))
 
 
 # -- the shortest duration of a step ------------------------------------------------------------------
@@ -239,16 +234,7 @@ class _Search:
         )
 
     def checks(self, duration_s: float) -> list[tuple[str, Check]]:
-        steps = list(self.steps)
-        last = steps[-1]
-        steps[-1] = Step(
-            duration_s=duration_s,
-            ambient_c=last.ambient_c,
-            face=last.face,
-            ambient_start_c=last.ambient_start_c,
-            second_face=last.second_face,
-            second_ambient_c=last.second_ambient_c,
-        )
+        steps = [*self.steps[:-1], replace(self.steps[-1], duration_s=duration_s)]
         self.runs += 1
         traces = _simulate(self.thermal, steps, self.tol)
         return [

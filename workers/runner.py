@@ -27,8 +27,9 @@ from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError, InterfaceError, OperationalError
 from sqlalchemy.orm import Session
 
-from models import BatchSpec, parse_batch, with_durations
+from models import BatchSpec
 from models import repository as jobs_repo
+from models.resolved import stored_spec
 from models.results import PartResult
 from models.settings import Settings, get_settings
 from models.store import session_factory, session_scope
@@ -75,21 +76,18 @@ _SPEC_CACHE_SIZE = 32
 
 
 def load_batch_spec(session: Session, batch_id: int, database_url: str) -> BatchSpec:
-    """The validated ``BatchSpec`` of a stored batch, with a rerun's durations applied.
+    """The resolved spec of a stored batch, as validated at submit (no validation here).
 
-    A stored batch never changes, so its parsed spec is kept per process, keyed by database, id and
-    creation time (ids restart in a recreated database): a 500-part file is read and validated once
-    per worker process, not once per part.
+    A stored batch never changes, so its spec is kept per process, keyed by database, id and creation
+    time (ids restart in a recreated database): a 500-part batch is read once per worker process, not
+    once per part.
     """
     created = session.scalar(select(Batch.created_at).where(Batch.id == batch_id))
     key = (database_url, batch_id, str(created))
     with _specs_lock:
         if key in _specs:
             return _specs[key]
-    batch = session.get_one(Batch, batch_id)
-    spec = parse_batch(batch.spec)
-    if batch.durations:
-        spec = with_durations(spec, dict(batch.durations))
+    spec = stored_spec(session.get_one(Batch, batch_id))
     with _specs_lock:
         if len(_specs) >= _SPEC_CACHE_SIZE:
             _specs.pop(next(iter(_specs)))
@@ -175,7 +173,7 @@ def execute_job(
             except Exception as exc:
                 if is_transient(exc):
                     raise
-                log.exception("batch %s: its stored file no longer validates", batch_id)
+                log.exception("batch %s: its stored spec cannot be used", batch_id)
                 error = _error_text(exc)
     if not group:
         with session_scope(factory) as session:

@@ -10,13 +10,14 @@ Conventions (each is a choice a reviewer may want to know):
 - hold_above counts the longest continuous time at or above the temperature, starting when the location
   reaches it, not when the furnace does (common practice: soak counts from the part).
 - The tempering parameter is Hollomon-Jaffe P = T (C + log10 t), T in kelvin, t in hours (read: the
-  Hollomon-Jaffe parameter as given in REFERENCES.md), summed over the real history by equivalent time.
+  Hollomon-Jaffe tempering parameter, heat-treating references), summed over the real history by
+  equivalent time.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Literal
 
 import numpy as np
@@ -30,11 +31,15 @@ Kind = Literal[
     "hold_above", "stay_below", "fall_below", "max_difference", "temper_parameter_min", "temper_parameter_max"
 ]
 Point = Literal["core", "surface", "corner"]
+MissSpans = tuple[tuple[float, float], ...]
+# Targets whose value is a temperature on the trace's own axis (a chart draws them as a line).
+TEMPERATURE_KINDS: tuple[str, ...] = ("hold_above", "stay_below", "fall_below")
 
 KELVIN = 273.15
 HOUR_S = 3600.0
 
 __all__ = [
+    "TEMPERATURE_KINDS",
     "Check",
     "Target",
     "evaluate",
@@ -44,6 +49,7 @@ __all__ = [
     "hold_time",
     "longest_run_above",
     "max_difference",
+    "miss_spans",
     "peak",
     "step_window",
     "tempering_parameter",
@@ -214,6 +220,8 @@ class Check:
     margin_value: float
     margin_unit: str
     message: str
+    limit: float  # the target's own value: degC, K or P by kind
+    misses: MissSpans = ()
 
     def flag_dict(self) -> FlagBody:
         """The contract's flag: everything but the pass marker."""
@@ -230,6 +238,7 @@ class Check:
         )
 
     def as_dict(self) -> CheckBody:
+        """The check as stored, with ``limit`` and the ``misses`` spans the charts draw."""
         return CheckBody(
             step=self.step,
             at=self.at,
@@ -241,6 +250,8 @@ class Check:
             margin_value=self.margin_value,
             margin_unit=self.margin_unit,
             message=self.message,
+            limit=self.limit,
+            misses=[[a, b] for a, b in self.misses],
         )
 
 
@@ -269,6 +280,7 @@ def _make(
         float(value),
         unit,
         message,
+        target.limit,
     )
 
 
@@ -378,9 +390,7 @@ def _temper(target: Target, t: FloatArray, temp: FloatArray) -> Check:
     )
 
 
-def evaluate(target: Target, trace: Trace) -> Check:
-    """Apply one target to one part's trace, within the target's step."""
-    t, idx = step_window(trace, target.step_index)
+def _check(target: Target, t: FloatArray, idx: NDArray[np.intp], trace: Trace) -> Check:
     if target.kind == "max_difference":
         return _difference(target, trace.core_c[idx], _location(trace, target.at)[idx])
     temp = _location(trace, target.at)[idx]
@@ -391,3 +401,41 @@ def evaluate(target: Target, trace: Trace) -> Check:
     if target.kind == "fall_below":
         return _fall(target, t, temp)
     return _temper(target, t, temp)
+
+
+def _runs(time_s: FloatArray, bad: NDArray[np.bool_]) -> list[tuple[float, float]]:
+    """Contiguous runs of ``bad`` samples as (first time, last time)."""
+    edges = np.diff(np.concatenate([[0], bad.astype(np.int8), [0]]))
+    starts, ends = np.nonzero(edges == 1)[0], np.nonzero(edges == -1)[0] - 1
+    return [(float(time_s[a]), float(time_s[b])) for a, b in zip(starts, ends, strict=True)]
+
+
+def miss_spans(target: Target, check: Check, t: FloatArray, idx: NDArray[np.intp], trace: Trace) -> MissSpans:
+    """Where on the trace (seconds from time zero) a missed temperature target is not met.
+
+    For a hold, the samples of the step below the temperature; for stay_below, those above it; for a
+    fall, those still above it from the time allowed to the end of the step. A miss with no such sample
+    (a hold broken into runs each too short) spans its whole step. Other kinds, and passed checks, have
+    none: a difference or a tempering parameter is not a temperature line on the chart.
+    """
+    if check.passed or target.kind not in TEMPERATURE_KINDS:
+        return ()
+    temp = _location(trace, target.at)[idx]
+    if target.kind == "hold_above":
+        bad = temp < target.limit
+    elif target.kind == "stay_below":
+        bad = temp > target.limit
+    else:
+        bad = (t >= (target.time_s or 0.0)) & (temp > target.limit)
+    time_s = np.asarray(trace.time_s[idx], dtype=float)
+    spans = _runs(time_s, bad) or [(float(time_s[0]), float(time_s[-1]))]
+    return tuple((round(a, 1), round(b, 1)) for a, b in spans)
+
+
+def evaluate(target: Target, trace: Trace) -> Check:
+    """Apply one target to one part's trace, within the target's step; missed temperature targets carry
+    the spans of the trace where they are missed."""
+    t, idx = step_window(trace, target.step_index)
+    check = _check(target, t, idx, trace)
+    misses = miss_spans(target, check, t, idx, trace)
+    return replace(check, misses=misses) if misses else check

@@ -71,7 +71,7 @@ def get_batch(batch_id: int, session: SessionDep, _: CurrentToken) -> BatchPubli
 @router.get("/{batch_id}/parts/{part_id}")
 def get_part(batch_id: int, part_id: str, session: SessionDep, _: CurrentToken) -> dict[str, Any]:
     """One part's result with its trace (time_s, core_c, surface_c, ambient_c, ...); 409 until computed."""
-    return service.part_result(session, batch_id, part_id)
+    return dict(service.part_result(session, batch_id, part_id))
 
 
 @router.post("/{batch_id}/rerun", status_code=202, response_model=BatchCreated)

@@ -13,6 +13,8 @@ from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 
+from models import format_path
+
 __all__ = [
     "BatchNotFound",
     "DomainError",
@@ -96,13 +98,8 @@ class InvalidInput(DomainError):
 
 
 def _request_path(loc: tuple[Any, ...]) -> str:
-    out = ""
-    for item in loc:
-        if isinstance(item, int):
-            out += f"[{item}]"
-        else:
-            out += ("." if out else "") + str(item)
-    return out or "body"
+    """``("body", "durations", "soak")`` -> ``"body.durations.soak"``, written as batch-file paths are."""
+    return format_path(tuple(item if isinstance(item, int) else str(item) for item in loc)) or "body"
 
 
 async def _domain(_: Request, exc: Exception) -> JSONResponse:

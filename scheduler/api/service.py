@@ -9,12 +9,14 @@ from __future__ import annotations
 from collections import defaultdict
 from collections.abc import Callable, Mapping
 from datetime import timedelta
-from typing import Any
+from typing import Any, cast
 
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session, selectinload
 
 from models import BatchSpec, SpecError, parse_batch, with_durations
+from models.resolved import dump_resolved, stored_spec
+from models.results import PartResult
 from models.settings import Settings
 from models.tables import (
     Batch,
@@ -51,6 +53,7 @@ __all__ = [
     "add_disposition",
     "compare",
     "get_batch",
+    "get_batch_record",
     "list_batches",
     "list_flags",
     "part_result",
@@ -62,11 +65,8 @@ __all__ = [
 Dispatch = Callable[[list[int]], object]  # a workers.dispatch.Dispatcher, or any sink of job ids
 
 
-def _spec_problems(exc: Exception) -> list[tuple[str, str]]:
-    problems = getattr(exc, "problems", None)
-    if problems:
-        return [(str(getattr(p, "path", "")), str(getattr(p, "message", p))) for p in problems]
-    return [("", str(exc))]
+def _spec_problems(exc: SpecError) -> list[tuple[str, str]]:
+    return [(p.path, p.message) for p in exc.problems]
 
 
 def validate(doc: Any, durations: Mapping[str, str] | None = None) -> BatchSpec:
@@ -95,6 +95,7 @@ def _create(
         label=label,
         status=BatchStatus.QUEUED.value,
         spec=dict(doc),
+        resolved=dump_resolved(spec),
         durations=dict(durations or {}),
         parent_id=parent_id,
         part_count=len(part_ids),
@@ -133,17 +134,21 @@ def rerun(
     who: Principal,
     dispatch: Dispatch,
 ) -> Batch:
-    """A new batch with the original's file and changed step durations, linked to the original."""
+    """A new batch with the original's file and changed step durations, linked to the original.
+
+    The new durations are applied once, to the original's resolved spec (which already has any earlier
+    rerun's); every problem is reported under ``durations``.
+    """
     parent = _batch(session, batch_id)
     merged = {**(parent.durations or {}), **durations}
     try:
-        spec = validate(parent.spec, merged)
-    except InvalidInput as exc:
-        exc.problems = [
+        spec = with_durations(stored_spec(parent), durations)
+    except SpecError as exc:
+        problems = [
             (p if p.startswith("durations") else f"durations.{p}" if p else "durations", m)
-            for p, m in exc.problems
+            for p, m in _spec_problems(exc)
         ]
-        raise
+        raise InvalidInput("the batch file is invalid", problems) from None
     batch, job_ids = _create(session, settings, parent.spec, spec, who, merged, parent.id)
     session.commit()
     dispatch(job_ids)
@@ -155,6 +160,15 @@ def _batch(session: Session, batch_id: int) -> Batch:
     if batch is None:
         raise BatchNotFound(batch_id)
     return batch
+
+
+def get_batch_record(session: Session, batch_id: int) -> tuple[Batch, BatchSpec]:
+    """A stored batch and its resolved spec, read as validated at submit (the pages' way to load one)."""
+    batch = _batch(session, batch_id)
+    try:
+        return batch, stored_spec(batch)
+    except SpecError as exc:
+        raise InvalidInput(f"batch {batch_id} cannot be shown", _spec_problems(exc)) from None
 
 
 def list_batches(session: Session, status: BatchStatus | None, limit: int, offset: int) -> BatchPage:
@@ -221,13 +235,13 @@ def get_batch(session: Session, batch_id: int) -> BatchPublic:
     )
 
 
-def part_result(session: Session, batch_id: int, part_id: str) -> dict[str, Any]:
-    """The stored result of one part, trace included."""
+def part_result(session: Session, batch_id: int, part_id: str) -> PartResult:
+    """The stored result of one part, trace included; its flags carry their id and review status."""
     _batch(session, batch_id)
     result = session.scalar(select(Result).where(Result.batch_id == batch_id, Result.part_id == part_id))
     if result is not None:
         _, flags = _part_flags(session, batch_id)
-        return {**result.body, "flags": flags.get(part_id, [])}
+        return cast(PartResult, {**result.body, "flags": flags.get(part_id, [])})
     job = session.scalar(select(Job).where(Job.batch_id == batch_id, Job.part_id == part_id))
     if job is None:
         raise PartNotFound(batch_id, part_id)

@@ -17,13 +17,13 @@ from fastapi.templating import Jinja2Templates
 from sqlalchemy import select
 from sqlalchemy.orm import selectinload
 
-from models import parse_time
+from models import BatchSpec, parse_time
 from models.errors import SpecError
 from models.tables import Batch, BatchStatus, Decision, Flag, FlagStatus, Role
 from scheduler.api import service
 from scheduler.api.auth import Principal, lookup_token
 from scheduler.api.deps import SessionDep, SettingsDep
-from scheduler.api.errors import BatchNotFound, DomainError, InvalidInput, ResultNotReady
+from scheduler.api.errors import DomainError, InvalidInput, ResultNotReady
 from scheduler.web import views
 from scheduler.web.session import WebUser, clear_session, start_session
 from scheduler.web.units import UNITS_COOKIE, Units, units_from
@@ -64,13 +64,6 @@ def _page(
 
 def _error(request: Request, user: Principal | None, exc: DomainError) -> HTMLResponse:
     return _page(request, "error.html", user, exc.status_code, message=exc.message)
-
-
-def _batch(session: SessionDep, batch_id: int) -> Batch:
-    batch = session.get(Batch, batch_id)
-    if batch is None:
-        raise BatchNotFound(batch_id)
-    return batch
 
 
 # -- assets, sign-in, units ---------------------------------------------------------------------------
@@ -161,10 +154,9 @@ def batches(
 @router.get("/batches/{batch_id}", response_class=HTMLResponse)
 def batch_page(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
     try:
-        batch = _batch(session, batch_id)
+        batch, spec = service.get_batch_record(session, batch_id)
     except DomainError as exc:
         return _error(request, user, exc)
-    spec = views.batch_spec(batch)
     units = units_from(request)
     return _page(
         request,
@@ -198,10 +190,9 @@ def suggest_page(
 @router.get("/batches/{batch_id}/report", response_class=HTMLResponse)
 def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
     try:
-        batch = _batch(session, batch_id)
+        batch, spec = service.get_batch_record(session, batch_id)
     except DomainError as exc:
         return _error(request, user, exc)
-    spec = views.batch_spec(batch)
     units = units_from(request)
     flags = session.scalars(
         select(Flag)
@@ -212,9 +203,7 @@ def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) 
     rows = views.part_rows(session, batch, spec, units)
     # Curves of the flagged parts only: they are what the report is read for, and a batch may be large.
     charts = [
-        views.chart_payload(spec, r.id, service.part_result(session, batch_id, r.id), units)
-        for r in rows
-        if r.flagged
+        views.chart_payload(service.part_result(session, batch_id, r.id), units) for r in rows if r.flagged
     ][:REPORT_CHARTS]
     return _page(
         request,
@@ -236,13 +225,12 @@ def part_page(
     request: Request, batch_id: int, part_id: str, session: SessionDep, user: WebUser
 ) -> HTMLResponse:
     try:
-        batch = _batch(session, batch_id)
+        batch, spec = service.get_batch_record(session, batch_id)
         body = service.part_result(session, batch_id, part_id)
     except ResultNotReady as exc:
         return _page(request, "pending.html", user, 200, message=exc.message, batch_id=batch_id)
     except DomainError as exc:
         return _error(request, user, exc)
-    spec = views.batch_spec(batch)
     units = units_from(request)
     return _page(
         request,
@@ -251,7 +239,7 @@ def part_page(
         batch=batch,
         part=body,
         size=views.part_size(next(p for p in spec.parts if p.id == part_id), units),
-        chart=views.chart_payload(spec, part_id, body, units),
+        chart=views.chart_payload(body, units),
         flags=views.flags_with_history(session, batch_id, part_id),
         can_review=user.role == Role.REVIEWER,
     )
@@ -297,8 +285,7 @@ def disposition(
 # -- rerun and compare --------------------------------------------------------------------------------
 
 
-def _rerun_context(batch: Batch, values: dict[str, str] | None = None) -> dict[str, Any]:
-    spec = views.batch_spec(batch)
+def _rerun_context(batch: Batch, spec: BatchSpec, values: dict[str, str] | None = None) -> dict[str, Any]:
     steps = [{"name": s.name, "duration": (values or {}).get(s.name, s.duration)} for s in spec.schedule]
     return {"batch": batch, "steps": steps, "hold_steps": views.hold_steps(spec)}
 
@@ -313,11 +300,11 @@ def rerun_form(
     duration: str | None = None,
 ) -> HTMLResponse:
     try:
-        batch = _batch(session, batch_id)
+        batch, spec = service.get_batch_record(session, batch_id)
     except DomainError as exc:
         return _error(request, user, exc)
     suggested = {step: duration} if step and duration else None
-    return _page(request, "rerun.html", user, problems=[], **_rerun_context(batch, suggested))
+    return _page(request, "rerun.html", user, problems=[], **_rerun_context(batch, spec, suggested))
 
 
 @router.post("/batches/{batch_id}/rerun", response_class=HTMLResponse)
@@ -325,14 +312,13 @@ async def rerun(
     request: Request, batch_id: int, session: SessionDep, settings: SettingsDep, user: WebUser
 ) -> Response:
     try:
-        batch = _batch(session, batch_id)
+        batch, spec = service.get_batch_record(session, batch_id)
     except DomainError as exc:
         return _error(request, user, exc)
     if user.role != Role.PLANNER:
         message = f"A rerun needs a planner token; {user.name} is a {user.role.value}."
         return _page(request, "error.html", user, 403, message=message)
     form = await request.form()
-    spec = views.batch_spec(batch)
     values = {s.name: str(form.get(f"duration:{s.name}", s.duration)).strip() for s in spec.schedule}
     changed: dict[str, str] = {}
     for step in spec.schedule:
@@ -351,7 +337,7 @@ async def rerun(
             problems = exc.problems
         else:
             return RedirectResponse(f"/ui/batches/{batch_id}/compare/{new.id}", status_code=303)
-    return _page(request, "rerun.html", user, 422, problems=problems, **_rerun_context(batch, values))
+    return _page(request, "rerun.html", user, 422, problems=problems, **_rerun_context(batch, spec, values))
 
 
 @router.get("/batches/{batch_id}/compare/{other_id}", response_class=HTMLResponse)
@@ -365,7 +351,7 @@ def compare(
 ) -> HTMLResponse:
     try:
         result = service.compare(session, batch_id, other_id)
-        before, after = _batch(session, batch_id), _batch(session, other_id)
+        (before, _), (after, _) = (service.get_batch_record(session, i) for i in (batch_id, other_id))
     except DomainError as exc:
         return _error(request, user, exc)
     rows = [views.compare_row(p) for p in result.parts]

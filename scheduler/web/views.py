@@ -7,25 +7,22 @@ from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session, selectinload
 
 from models import BatchSpec, PartSpec, StepSpec
+from models.results import PartResult, TraceBody
 from models.tables import Batch, Flag, Job, Part, Result
-from scheduler.api import service
 from scheduler.api.schemas import ComparePart
 from scheduler.web.units import Units
-from workers.jobs import to_target
+from workers.targets import TEMPERATURE_KINDS
 
 __all__ = [
     "ChartSeries",
     "PartRow",
-    "batch_spec",
     "chart_payload",
     "compare_row",
     "flags_with_history",
@@ -34,39 +31,15 @@ __all__ = [
     "part_rows",
     "part_size",
     "schedule_rows",
-    "step_windows",
     "trace_csv",
 ]
 
-_THRESHOLD_KINDS = {"hold_above", "stay_below", "fall_below"}
 _SERIES = (("core_c", "core"), ("surface_c", "surface"), ("corner_c", "corner"), ("ambient_c", "ambient"))
 
 
-def batch_spec(batch: Batch) -> BatchSpec:
-    """The batch file as validated, with a rerun's durations applied."""
-    spec: BatchSpec = service.validate(batch.spec, batch.durations or None)
-    return spec
-
-
-def step_windows(spec: BatchSpec) -> list[tuple[str, float, float]]:
-    """(name, start_s, end_s) of every step; time zero is the start of the first."""
-    out, start = [], 0.0
-    for step in spec.schedule:
-        out.append((step.name, start, start + step.duration_s))
-        start += step.duration_s
-    return out
-
-
 def part_size(part: PartSpec, units: Units) -> str:
-    """Section sizes in the viewer's length unit: "50 mm", "dia 80 mm", "50 x 200 x 400 mm"."""
-    f = units.fmt_length
-    if part.shape == "plate":
-        return f(part.thickness_m)
-    if part.shape == "bar":
-        return f"dia {f(part.diameter_m)}"
-    if part.shape == "block":
-        return f"{f(part.thickness_m)} × {f(part.width_m)} × {f(part.length_m)}"
-    return f"dia {f(part.diameter_m)} × {f(part.length_m)}"
+    """Section sizes in the viewer's length unit: "50 mm", "dia 80 mm", "50 mm × 200 mm × 400 mm"."""
+    return part.size_text(lambda _text, metres: units.fmt_length(metres))
 
 
 def hold_steps(spec: BatchSpec) -> list[str]:
@@ -109,7 +82,7 @@ def part_rows(session: Session, batch: Batch, spec: BatchSpec, units: Units) -> 
                 id=pid,
                 shape=p.shape,
                 size=part_size(p, units),
-                material=p.material if isinstance(p.material, str) else "inline",
+                material=p.material_name,
                 status=job.status if job else "unknown",
                 flagged=None if result is None else bool(result.flagged),
                 checks=list(result.body.get("checks", [])) if result else [],
@@ -141,79 +114,53 @@ class ChartSeries:
     label: str
 
 
-def _spans(t: np.ndarray[Any, Any], bad: np.ndarray[Any, Any]) -> list[tuple[float, float]]:
-    """Contiguous runs of ``bad`` as (start, end) times."""
-    out: list[tuple[float, float]] = []
-    start: float | None = None
-    for i, flag in enumerate(bad.tolist()):
-        if flag and start is None:
-            start = float(t[i])
-        if not flag and start is not None:
-            out.append((start, float(t[i - 1])))
-            start = None
-    if start is not None:
-        out.append((start, float(t[-1])))
-    return out
-
-
-def _threshold_marks(
-    spec: BatchSpec, part: PartSpec, trace: dict[str, Any], flags: Sequence[dict[str, Any]], units: Units
-) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
-    windows = {name: (a, b) for name, a, b in step_windows(spec)}
-    t = np.asarray(trace["time_s"], dtype=float)
-    flagged = {(f["step"], f["at"], f["target"]) for f in flags}
+def _marks(body: PartResult, units: Units) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
+    """Each temperature target's line over its step, and the spans where a missed one is missed, as the
+    worker stored them with the result."""
+    windows = {w["name"]: w for w in body.get("steps", [])}
     thresholds, spans = [], []
-    for target_spec in part.targets:
-        target = to_target(target_spec, spec)
-        if target.kind not in _THRESHOLD_KINDS:
+    for check in body["checks"]:
+        window = windows.get(check["step"])
+        if check["target"] not in TEMPERATURE_KINDS or window is None or "limit" not in check:
             continue
-        a, b = windows[target.step]
-        is_flagged = (target.step, target.at, target.kind) in flagged
+        label = f"{check['step']} {check['at']} {check['target'].replace('_', ' ')}"
         thresholds.append(
             {
-                "label": f"{target.step} {target.at} {target.kind.replace('_', ' ')}",
-                "value": units.temp(target.limit),
-                "start_min": a / 60.0,
-                "end_min": b / 60.0,
-                "at": target.at,
-                "flagged": is_flagged,
+                "label": label,
+                "value": units.temp(check["limit"]),
+                "start_min": window["start_s"] / 60.0,
+                "end_min": window["end_s"] / 60.0,
+                "at": check["at"],
+                "flagged": not check["passed"],
             }
         )
-        if not is_flagged:
-            continue
-        values = trace.get(f"{target.at}_c")
-        if values is None:
-            continue
-        temp = np.asarray([np.nan if v is None else v for v in values], dtype=float)
-        in_step = (t >= a) & (t <= b)
-        if target.kind == "hold_above":
-            bad = in_step & (temp < target.limit)
-        elif target.kind == "stay_below":
-            bad = in_step & (temp > target.limit)
-        else:  # fall_below: still too hot when the allowed time ran out, up to the end of the step
-            bad = in_step & (t >= a + (target.time_s or 0.0)) & (temp > target.limit)
-        found = _spans(t, bad) or [(a, b)]
-        spans += [
-            {"start_min": s / 60.0, "end_min": e / 60.0, "label": thresholds[-1]["label"]} for s, e in found
-        ]
+        spans += [{"start_min": a / 60.0, "end_min": b / 60.0, "label": label} for a, b in check["misses"]]
     return thresholds, spans
 
 
-def chart_payload(spec: BatchSpec, part_id: str, body: dict[str, Any], units: Units) -> dict[str, Any]:
+def _columns(trace: TraceBody) -> dict[str, list[float | None]]:
+    """The trace's temperature columns present in this result, by key."""
+    return {k: v for k, v in trace.items() if k.endswith("_c") and isinstance(v, list)}
+
+
+def chart_payload(body: PartResult, units: Units) -> dict[str, Any]:
     """Everything the part chart draws, in display units: time in minutes, series, marks and spans."""
-    part = next(p for p in spec.parts if p.id == part_id)
     trace = body["trace"]
-    series = [ChartSeries(k, label) for k, label in _SERIES if trace.get(k) is not None]
-    data = [[round(s / 60.0, 3) for s in trace["time_s"]]]
+    columns = _columns(trace)
+    series = [ChartSeries(k, label) for k, label in _SERIES if k in columns]
+    data: list[list[float | None]] = [[round(s / 60.0, 3) for s in trace["time_s"]]]
     for s in series:
-        data.append([units.temp(v) for v in trace[s.key]])
-    thresholds, spans = _threshold_marks(spec, part, trace, body.get("flags", []), units)
+        data.append([units.temp(v) for v in columns[s.key]])
+    thresholds, spans = _marks(body, units)
+    steps = body.get("steps", [])
     return {
-        "part": part_id,
+        "part": body["id"],
         "temp_unit": units.temp_label,
         "series": [s.label for s in series],
         "data": data,
-        "steps": [{"name": n, "start_min": a / 60.0, "end_min": b / 60.0} for n, a, b in step_windows(spec)],
+        "steps": [
+            {"name": w["name"], "start_min": w["start_s"] / 60.0, "end_min": w["end_s"] / 60.0} for w in steps
+        ],
         "thresholds": thresholds,
         "spans": spans,
     }
@@ -231,26 +178,25 @@ def flags_with_history(session: Session, batch_id: int, part_id: str) -> list[Fl
     )
 
 
-def trace_csv(body: dict[str, Any], units: Units) -> str:
+def trace_csv(body: PartResult, units: Units) -> str:
     """A part's trace as CSV: time in seconds and minutes, then each temperature in the display unit."""
     trace = body["trace"]
-    keys = [(k, label) for k, label in _SERIES if trace.get(k) is not None]
+    columns = _columns(trace)
+    keys = [(k, label) for k, label in _SERIES if k in columns]
     unit = "degF" if units.temp_unit == "F" else "degC"
     out = io.StringIO()
     writer = csv.writer(out, lineterminator="\n")
     writer.writerow(["time_s", "time_min", *(f"{label}_{unit}" for _, label in keys)])
     for i, t in enumerate(trace["time_s"]):
-        temps = [units.temp(trace[k][i]) for k, _ in keys]
+        temps = [units.temp(columns[k][i]) for k, _ in keys]
         writer.writerow([t, round(t / 60.0, 3), *("" if v is None else round(v, 2) for v in temps)])
     return out.getvalue()
 
 
-def overlay_payload(
-    part_id: str, before: dict[str, Any], after: dict[str, Any], units: Units
-) -> dict[str, Any]:
+def overlay_payload(part_id: str, before: PartResult, after: PartResult, units: Units) -> dict[str, Any]:
     """Core and surface of one part, original against rerun, as two tables the page joins on time."""
 
-    def table(body: dict[str, Any]) -> list[list[float | None]]:
+    def table(body: PartResult) -> list[list[float | None]]:
         trace = body["trace"]
         return [
             [round(s / 60.0, 3) for s in trace["time_s"]],

@@ -14,7 +14,8 @@ from workers.thermal.spec import Curve, Material, PartThermal, Shape, Step
 
 READ_CENGEL = "read: Cengel Table 4-2"
 MEMORY = "from memory"
-TABLE_TOL = 2e-4  # tables disagree in their last digit (REFERENCES.md)
+# The published tables disagree in their last digit (Cengel Table 4-2 against Incropera Table 5.1).
+TABLE_TOL = 2e-4
 MEMORY_TOL = 1e-3
 
 # Bi, wall root, wall C1, cylinder root, cylinder C1, source
@@ -80,7 +81,7 @@ def test_bar_limits_are_bessel_zeros() -> None:
     d_fixed = np.max(np.abs(fixed - jn_zeros(0, n)))
     d_ins = np.max(np.abs(insulated - np.concatenate([[0.0], jn_zeros(1, n - 1)])))
     assert d_fixed < 1e-12 and d_ins < 1e-12
-    # read: standard tables of Bessel zeros (REFERENCES.md, cylinder limits)
+    # read: standard tables of Bessel zeros (the cylinder's limits)
     j0_read = np.array([2.4048, 5.5201, 8.6537, 11.7915])
     j1_read = np.array([3.8317, 7.0156, 10.1735, 13.3237])
     d_read = max(np.max(np.abs(fixed[:4] - j0_read)), np.max(np.abs(insulated[1:5] - j1_read)))

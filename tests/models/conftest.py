@@ -1,4 +1,4 @@
-"""Shared inputs of the models tests: the batch file of DESIGN.md section 4, as text and as a document."""
+"""Shared inputs of the models tests: a small batch file in the README's format, as text and as a document."""
 
 from __future__ import annotations
 
@@ -44,5 +44,5 @@ def doc() -> dict[str, Any]:
 
 @pytest.fixture
 def design_text() -> str:
-    """The batch file of DESIGN.md section 4 as written there."""
+    """The batch file as written, comments included."""
     return DESIGN_EXAMPLE

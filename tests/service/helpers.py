@@ -67,7 +67,7 @@ def auth(token: str) -> dict[str, str]:
 
 
 def batch_doc(n: int, soak: str = "1 h", label: str = "test batch") -> dict[str, Any]:
-    """A batch file as DESIGN.md section 4 writes it: n plates of 20..80 mm, heat, soak, quench.
+    """A batch file in the README's format: n plates of 20..80 mm, heat, soak, quench.
 
     Constant heat transfer coefficients keep the engine on its fast linear path: these tests are
     about the service, and a short soak (``soak="20 min"``) leaves the thick plates flagged.

@@ -68,8 +68,8 @@ def test_hold_time_of_a_plate_near_the_dirichlet_limit_matches_the_series() -> N
 
 
 def test_tempering_parameter_of_an_isothermal_engine_trace() -> None:
-    # read: Hollomon-Jaffe P = T (C + log10 t), T in kelvin, t in hours (REFERENCES.md), C = 20 from the
-    # catalog. The part starts at the bath temperature, so the trace is isothermal.
+    # read: Hollomon-Jaffe P = T (C + log10 t), T in kelvin, t in hours (heat-treating references),
+    # C = 20 from the catalog. The part starts at the bath temperature, so the trace is isothermal.
     result = run_batch(parse_batch(plate_batch("100 W/m^2/K", 0.03, 500.0, "600 degC", "600 degC", 2.5)))
     temper = result["parts"][0]["checks"][1]
     p = float(temper["achieved"].removeprefix("P "))

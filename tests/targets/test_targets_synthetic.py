@@ -155,7 +155,7 @@ def test_corner_needs_a_corner() -> None:
 
 
 def test_tempering_parameter_isothermal_equals_the_formula() -> None:
-    # read: Hollomon-Jaffe P = T (C + log10 t), T in kelvin, t in hours (REFERENCES.md)
+    # read: Hollomon-Jaffe P = T (C + log10 t), T in kelvin, t in hours (heat-treating references)
     t = np.linspace(0.0, 2 * 3600.0, 121)
     temp = np.full_like(t, 600.0)
     expected = (600.0 + KELVIN) * (20.0 + math.log10(2.0))

@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
+from typing import cast
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 import pytest
 
+from models.results import PartResult
 from scheduler.api.schemas import ComparePart, PartFlags
 from scheduler.web.pages import _safe_next
 from scheduler.web.units import Units
@@ -50,7 +52,7 @@ def test_trace_csv_in_display_units() -> None:
             "ambient_c": [860.0, 860.0],
         }
     }
-    lines = trace_csv(body, Units("F", "mm")).splitlines()
+    lines = trace_csv(cast(PartResult, body), Units("F", "mm")).splitlines()
     assert lines[0] == "time_s,time_min,core_degF,surface_degF,ambient_degF"
     assert lines[2] == "60.0,1.0,212.0,,1580.0"
 

@@ -130,7 +130,7 @@ def choose_modes(
     lam = lower_roots(kind, cap + _TAIL)
     terms = span_k * coefficient_bound(kind, lam) * np.exp(-(lam**2) * decay_min)
     terms = terms + forced_k * forced_terms(kind, lam)
-    # DESIGN section 3: the first dropped term below the tolerance (with a factor 2 of margin); the
+    # DEVELOPERS.md, mode counts: the first dropped term below the tolerance (with a factor 2 of margin); the
     # reported bound_k sums the whole tail, so any shortfall shows in the trace
     first = 2.0 * terms[: cap + 1]
     lo_n = 2 if kind == "two" else 1

@@ -134,6 +134,46 @@ CASES = {
         ],
         True,
     ),
+    # A step without its own lower face uses the main face's law on both faces (README, "The batch
+    # file"): a plate heated on a hearth and then quenched all round, marched and in series.
+    "two-face plate, radiant heat on a hearth, then an oil quench without a lower face": Case(
+        plate(0.025, EUROCODE_STEEL),
+        [
+            Step(3600.0, 860.0, FURNACE, ambient_start_c=500.0, second_face=HEARTH, second_ambient_c=820.0),
+            Step(600.0, 60.0, Face(OIL_QUENCH)),
+        ],
+        True,
+    ),
+    "two-face plate, oil quench without a lower face between radiant heats on a hearth": Case(
+        plate(0.025, EUROCODE_STEEL),
+        [
+            Step(1800.0, 860.0, FURNACE, second_face=HEARTH, second_ambient_c=820.0),
+            Step(300.0, 60.0, Face(OIL_QUENCH)),
+            Step(1800.0, 860.0, FURNACE, ambient_start_c=500.0, second_face=HEARTH),
+        ],
+        True,
+    ),
+    "two-face plate, series steps with and without a lower face": Case(
+        plate(0.025),
+        [
+            Step(3600.0, 860.0, const_face(150.0), ambient_start_c=500.0, second_face=HEARTH),
+            Step(600.0, 40.0, const_face(3000.0)),
+            Step(1800.0, 860.0, const_face(150.0), second_face=HEARTH, second_ambient_c=300.0),
+            Step(600.0, 40.0, const_face(3000.0), ambient_start_c=200.0),
+        ],
+        False,
+    ),
+    "two-face plate, series and marched steps with and without a lower face": Case(
+        plate(0.025),
+        [
+            Step(1800.0, 860.0, FURNACE, ambient_start_c=500.0),
+            Step(1800.0, 860.0, const_face(150.0), second_face=HEARTH, second_ambient_c=820.0),
+            Step(600.0, 60.0, Face(OIL_QUENCH)),
+            Step(600.0, 60.0, const_face(500.0), second_face=const_face(2000.0)),
+            Step(900.0, 550.0, const_face(25.0)),
+        ],
+        True,
+    ),
 }
 
 

@@ -111,6 +111,9 @@ def simulate(
     traces: list[Trace | None] = [None] * len(parts)
     for r, idx in runners:
         out = r.out
+        unset = [name for name, v in out.items() if np.isnan(v).any()]
+        if unset:
+            raise ArithmeticError(f"no method filled every reported time of {', '.join(unset)}")
         for j, i in enumerate(idx):
             traces[i] = Trace(
                 time_s=time_s,
@@ -159,7 +162,7 @@ class _Series:
         names += ["corner"] if g.points.corner is not None else []
         names += ["second"] if g.points.second is not None else []
         for name in names:
-            self.out[name] = np.empty((g.P, total))
+            self.out[name] = np.full((g.P, total), np.nan)  # columns are filled step by step
             self.out[name][:, 0] = g.initial
         self.out["heat"] = np.zeros((g.P, total))
         self.out["bound"] = np.zeros((g.P, total))
@@ -263,17 +266,20 @@ class _Marcher:
             profiles = [r.g.temperatures(r.state, nodes.xi[r.g.kind]) for r in runners]  # type: ignore[index]
             T0 = nodes.fill([row for prof in profiles for row in prof])
         start = st.ambient_c if st.ambient_start_c is None else st.ambient_start_c
-        laws = [(st.face, start, _ramp_rate(st))]
+        main = (st.face, start, _ramp_rate(st))
+        # a step without its own lower face uses the main face's law on both faces of a two-face plate
+        lower = None
         if st.second_face is not None:
-            second = st.ambient_c if st.second_ambient_c is None else st.second_ambient_c
-            rate = _ramp_rate(st) if st.second_ambient_c is None else 0.0
-            laws.append((st.second_face, start if st.second_ambient_c is None else second, rate))
+            if st.second_ambient_c is None:
+                lower = (st.second_face, start, _ramp_rate(st))
+            else:
+                lower = (st.second_face, st.second_ambient_c, 0.0)
         offsets = st.duration_s * np.arange(1, n + 1) / n
         lengths = np.concatenate([r.g.lengths.min(axis=1) for r in runners])
         alpha = np.concatenate([r.g.alpha_min for r in runners])
         spacings = self.tol.solid_intervals if isinstance(nodes, Solid) else self.tol.intervals
         first = np.minimum((lengths / spacings) ** 2 / alpha, offsets[0])
-        res = march.march(nodes, Laws(laws), T0, offsets, self.tol.step_k, first)
+        res = march.march(nodes, Laws(main, lower), T0, offsets, self.tol.step_k, first)
         states = []
         row = 0
         for r in runners:

@@ -69,7 +69,7 @@ class MaterialSet:
 
     def _each(self, temp_c: FloatArray, f: str) -> FloatArray:
         """Property ``f`` (k or cp) of each part at its temperature ``temp_c[i]``."""
-        out = np.empty_like(temp_c, dtype=float)
+        out = np.full_like(temp_c, np.nan, dtype=float)  # every part has one of the materials
         for i, m in enumerate(self.unique):
             sel = self.which == i
             out[sel] = (m.conductivity if f == "k" else m.specific_heat)(temp_c[sel])
@@ -84,7 +84,7 @@ class MaterialSet:
 
     def slowest_diffusivity(self) -> FloatArray:
         """Smallest k / (rho cp) over each material's tables, m^2/s (for conservative mode counts)."""
-        out = np.empty(self.which.shape, dtype=float)
+        out = np.full(self.which.shape, np.nan)  # every part has one of the materials
         for i, m in enumerate(self.unique):
             temps = np.array(sorted(set(m.conductivity.temp_c) | set(m.specific_heat.temp_c)))
             alpha = m.conductivity(temps) / (m.density * m.specific_heat(temps))

@@ -308,21 +308,21 @@ class Group:
         VA, VS = W * A[:, None, :], W * S[:, None, :]
         GA, GS = G * A[:, None, :], G * S[:, None, :]
         m = dt.size
-        vals = np.empty((self.P, len(names), m))
-        heat = np.empty((self.P, m))
+        val_parts: list[FloatArray] = []
+        heat_parts: list[FloatArray] = []
         step = max(1, _CHUNK // max(1, self.P * K.shape[1]))
         for c0 in range(0, m, step):
             t = dt[c0 : c0 + step]
             x = K[:, None, :] * t[None, :, None]
             E = np.exp(-x)
             ph = phi(x)
-            vals[:, :, c0 : c0 + step] = np.einsum("pfM,ptM->pft", VA, E) - np.einsum(
-                "pfM,ptM->pft", VS, ph * t[None, :, None]
+            val_parts.append(
+                np.einsum("pfM,ptM->pft", VA, E) - np.einsum("pfM,ptM->pft", VS, ph * t[None, :, None])
             )
             integ = np.einsum("pgM,ptM->pgt", GA, ph * t[None, :, None]) - np.einsum(
                 "pgM,ptM->pgt", GS, tensor.psi(x) * (t * t)[None, :, None]
             )
-            heat[:, c0 : c0 + step] = (
+            heat_parts.append(
                 sub.k[:, None] * integ.sum(axis=1)
                 + sub.heat_jump[:, None]
                 + sub.heat_rate[:, None] * t[None, :]
@@ -332,7 +332,8 @@ class Group:
             + sub.sB[:, None, None] * off[:, :, None]
             + (sub.dsA[:, None, None] + sub.dsB[:, None, None] * off[:, :, None]) * dt[None, None, :]
         )
-        vals = vals + s_line
+        vals = np.concatenate(val_parts, axis=2) + s_line
+        heat = np.concatenate(heat_parts, axis=1)
         return {n: vals[:, i, :] for i, n in enumerate(names)}, heat
 
     def temperatures(self, state: State, xi: FloatArray) -> FloatArray:

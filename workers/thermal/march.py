@@ -194,7 +194,7 @@ def march(
         return np.stack(rows)  # (names, P)
 
     names = [*points, "mean", "heat", "error"]
-    out = np.empty((len(names), P, m))
+    out = np.full((len(names), P, m), np.nan)  # every reported time is written by _emit
     hmin = 1e-9 * end_t
     taken = np.ones(P, dtype=np.int64)
 
@@ -234,7 +234,7 @@ def march(
     t_before = np.zeros(P)  # time of r_prev
     ids = np.arange(P)  # original number of each part still in the arrays
     node_ids = np.arange(nodes.N)
-    T_end = np.empty(nodes.N)
+    T_end = np.full(nodes.N, np.nan)  # every node is written when its part leaves or at the end
     nxt = _emit(
         out, offsets, np.zeros(P, dtype=np.intp), np.ones(P, dtype=bool), t_before, t, r_prev, r_now, ids
     )
@@ -306,6 +306,8 @@ def march(
         h = np.where(good & (hh < h), np.maximum(h, grown), grown)
         h = np.maximum(h, hmin)
     T_end[node_ids] = T
+    if np.isnan(out).any() or np.isnan(T_end).any():
+        raise ArithmeticError("the march left a reported time or an end temperature unset")
     vals = {name: out[i] for i, name in enumerate(names)}
     heat_out = vals.pop("heat")
     err_out = vals.pop("error")

@@ -109,16 +109,16 @@ class Nodes:
         self.tables = Tables(materials)
         vol, cond, part, base, fine = [], [], [], [], []
         face_node, face_part, face_area, face_law, face_fine = [], [], [], [], []
-        self.core = np.empty((2, self.P), dtype=np.intp)  # (fine, coarse) node of each reported point
-        self.surface = np.empty((2, self.P), dtype=np.intp)
+        self.core = np.full((2, self.P), -1, dtype=np.intp)  # (fine, coarse) node of each reported point
+        self.surface = np.full((2, self.P), -1, dtype=np.intp)
         self.second = np.full((2, self.P), -1, dtype=np.intp)
-        self.total = np.empty(self.P)
+        self.total = np.full(self.P, np.nan)
         # a two-face plate's grid spans its whole thickness: twice the intervals of a half thickness
         self.intervals: dict[Kind, int] = {"plate": intervals, "bar": intervals, "plate2": 2 * intervals}
         self.xi = {k: node_xi(k, n) for k, n in self.intervals.items()}
         self.kinds = [pg.kind for pg in parts]
         start = 0
-        self.starts = np.empty(self.P, dtype=np.intp)
+        self.starts = np.full(self.P, -1, dtype=np.intp)
         for p, pg in enumerate(parts):
             self.starts[p] = start
             full = self.intervals[pg.kind]
@@ -162,6 +162,7 @@ class Nodes:
         self.edges: tuple[IntArray, IntArray, FloatArray] | None = None  # multi-axis parts only
         self.corner: IntArray | None = None
         self.factor: Any = None  # sparse LU kept between solves (multi-axis parts)
+        _check_filled(self)
 
     def subset(self, keep: NDArray[np.bool_]) -> tuple[Nodes, NDArray[np.bool_]]:
         """The same nodes for the parts ``keep`` only (renumbered), and which nodes were kept."""
@@ -210,11 +211,11 @@ class Nodes:
 
     def fill(self, profiles: Sequence[FloatArray]) -> FloatArray:
         """Flat node temperatures from each part's profile on the fine nodes of its kind."""
-        T = np.empty(self.N)
-        for p, fine in enumerate(profiles):
-            s = self.starts[p]
-            T[s : s + fine.size] = fine
-            T[s + fine.size : s + fine.size + fine[::2].size] = fine[::2]
+        if len(profiles) != self.P:
+            raise ValueError(f"{len(profiles)} profiles for {self.P} parts")
+        T = np.concatenate([np.concatenate([fine, fine[::2]]) for fine in profiles])
+        if T.size != self.N:
+            raise ValueError("a profile does not have its part's number of fine nodes")
         return T
 
     def fine_profile(self, T: FloatArray, parts: slice) -> FloatArray:
@@ -249,12 +250,12 @@ class Solid(Nodes):
         self.kinds = ["plate"] * self.P  # not used for profiles: solids never hand one to a series
         vol, part, base, fine, ei, ej, ec = [], [], [], [], [], [], []
         face_node, face_part, face_area, face_fine = [], [], [], []
-        self.core = np.empty((2, self.P), dtype=np.intp)
-        self.surface = np.empty((2, self.P), dtype=np.intp)
-        self.corner = np.empty((2, self.P), dtype=np.intp)
+        self.core = np.full((2, self.P), -1, dtype=np.intp)
+        self.surface = np.full((2, self.P), -1, dtype=np.intp)
+        self.corner = np.full((2, self.P), -1, dtype=np.intp)
         self.second = np.full((2, self.P), -1, dtype=np.intp)
-        self.total = np.empty(self.P)
-        self.starts = np.empty(self.P, dtype=np.intp)
+        self.total = np.full(self.P, np.nan)
+        self.starts = np.full(self.P, -1, dtype=np.intp)
         start = 0
         for p, sg in enumerate(parts):
             self.starts[p] = start
@@ -309,6 +310,14 @@ class Solid(Nodes):
         self.two_faces = False
         self.edges = (np.concatenate(ei), np.concatenate(ej), np.concatenate(ec))
         self.factor = None
+        _check_filled(self)
+
+
+def _check_filled(nodes: Nodes) -> None:
+    """Every part got its reported nodes, start and section volume (the loops above set them all)."""
+    index = [nodes.core, nodes.surface, nodes.starts] + ([nodes.corner] if nodes.corner is not None else [])
+    if any((a < 0).any() for a in index) or np.isnan(nodes.total).any():
+        raise ValueError("a part of the march has no reported node or no volume")
 
 
 def _node_at(index: NDArray[np.intp], xis: Sequence[FloatArray], target: Sequence[float]) -> int:
@@ -323,22 +332,33 @@ def _outer(vecs: Sequence[FloatArray]) -> FloatArray:
     return out
 
 
-class Laws:
-    """The step's face laws: law 0 the main face and ambient, law 1 the second face (two-face plates)."""
+Law = tuple[Face, float, float]
 
-    def __init__(self, faces: Sequence[tuple[Face, float, float]]) -> None:
-        """``faces``: (face, ambient at the step start degC, ambient rate K/s) per law."""
-        self.faces = list(faces)
+
+class Laws:
+    """The step's face laws: law 0 the main face and ambient, law 1 a two-face plate's lower face.
+
+    Both laws always exist: a step that names no lower face uses its main face's law on both faces
+    (README, "The batch file"), so every face entry of every part gets a flux whatever the step says.
+    """
+
+    def __init__(self, main: Law, lower: Law | None = None) -> None:
+        """Each law: (face, ambient at the step start degC, ambient rate K/s); ``lower`` defaults to
+        ``main``."""
+        self.faces = [main, main if lower is None else lower]
         # per law: the h curve's knots, values and segment slopes, as arrays once
         self.curves = [
-            (np.asarray(f.htc.temp_c, dtype=float), np.asarray(f.htc.value, dtype=float)) for f, _, _ in faces
+            (np.asarray(f.htc.temp_c, dtype=float), np.asarray(f.htc.value, dtype=float))
+            for f, _, _ in self.faces
         ]
         self.slopes = [_slopes(x, v) for x, v in self.curves]
 
     def flux(self, nodes: Nodes, Ts: FloatArray, t_part: FloatArray) -> tuple[FloatArray, FloatArray]:
         """Flux into the part (W/m^2) at every face entry and its slope in the surface temperature."""
-        q = np.empty_like(Ts)
-        dq = np.empty_like(Ts)
+        if nodes.face_law.size and not 0 <= int(nodes.face_law.min()) <= int(nodes.face_law.max()) <= 1:
+            raise ValueError("a face entry names a law other than the main (0) or the lower (1) face")
+        q = np.zeros_like(Ts)
+        dq = np.zeros_like(Ts)
         for law, (face, a0, rate) in enumerate(self.faces):
             sel = nodes.face_law == law
             if not sel.any():

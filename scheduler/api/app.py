@@ -81,7 +81,7 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     app.state.settings = settings
     app.state.runner = None
     app.state.dispatch = _dispatcher(settings)
-    install_error_handlers(app)
+    install_error_handlers(app, pages=("/ui/", web.error_page))
     app.include_router(batches.router)
     app.include_router(flags.router)
     app.include_router(health.router)

@@ -15,7 +15,16 @@ from models.tables import Role
 from scheduler.api.auth import Principal, lookup_token
 from scheduler.api.errors import Forbidden, Unauthorized
 
-__all__ = ["CurrentToken", "Planner", "Reviewer", "SessionDep", "SettingsDep", "require_role"]
+__all__ = [
+    "CurrentToken",
+    "Planner",
+    "Reviewer",
+    "SessionDep",
+    "SettingsDep",
+    "check_role",
+    "has_role",
+    "require_role",
+]
 
 _bearer = HTTPBearer(auto_error=False, description="An API token from `soakline token create`.")
 
@@ -51,15 +60,24 @@ def current_token(
 CurrentToken = Annotated[Principal, Depends(current_token)]
 
 
+def has_role(principal: Principal, role: Role) -> bool:
+    """The one role rule: a token has exactly one role, and only that role may do its things."""
+    return principal.role == role
+
+
+def check_role(principal: Principal, role: Role) -> Principal:
+    """``principal`` when it has ``role``; Forbidden (403) naming both otherwise. The API's role
+    dependencies and the pages' role dependencies both use this one rule."""
+    if not has_role(principal, role):
+        raise Forbidden(f"this needs a {role.value} token; {principal.name!r} is a {principal.role.value}")
+    return principal
+
+
 def require_role(role: Role) -> Callable[[Principal], Principal]:
     """Dependency that lets only ``role`` through (403 otherwise)."""
 
     def check(principal: CurrentToken) -> Principal:
-        if principal.role != role:
-            raise Forbidden(
-                f"this needs a {role.value} token; {principal.name!r} is a {principal.role.value}"
-            )
-        return principal
+        return check_role(principal, role)
 
     return check
 

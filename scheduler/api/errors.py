@@ -7,11 +7,12 @@ Every error carries the ids it is about and a message a user can act on. Bodies 
 
 from __future__ import annotations
 
+from collections.abc import Awaitable, Callable
 from typing import Any
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
-from fastapi.responses import JSONResponse
+from fastapi.responses import JSONResponse, Response
 
 from models import format_path
 
@@ -102,10 +103,18 @@ def _request_path(loc: tuple[Any, ...]) -> str:
     return format_path(tuple(item if isinstance(item, int) else str(item) for item in loc)) or "body"
 
 
-async def _domain(_: Request, exc: Exception) -> JSONResponse:
-    assert isinstance(exc, DomainError)
-    headers = {"WWW-Authenticate": "Bearer"} if isinstance(exc, Unauthorized) else None
-    return JSONResponse(exc.body(), status_code=exc.status_code, headers=headers)
+PageRenderer = Callable[[Request, DomainError], Response]
+
+
+def _domain(pages: tuple[str, PageRenderer] | None) -> Callable[[Request, Exception], Awaitable[Response]]:
+    async def handle(request: Request, exc: Exception) -> Response:
+        assert isinstance(exc, DomainError)
+        if pages is not None and request.url.path.startswith(pages[0]):
+            return pages[1](request, exc)
+        headers = {"WWW-Authenticate": "Bearer"} if isinstance(exc, Unauthorized) else None
+        return JSONResponse(exc.body(), status_code=exc.status_code, headers=headers)
+
+    return handle
 
 
 async def _validation(_: Request, exc: Exception) -> JSONResponse:
@@ -114,7 +123,10 @@ async def _validation(_: Request, exc: Exception) -> JSONResponse:
     return JSONResponse(InvalidInput("the request is invalid", problems).body(), status_code=422)
 
 
-def install_error_handlers(app: FastAPI) -> None:
-    """Map every domain error, and FastAPI's own request validation, to its HTTP response."""
-    app.add_exception_handler(DomainError, _domain)
+def install_error_handlers(app: FastAPI, pages: tuple[str, PageRenderer] | None = None) -> None:
+    """Map every domain error, and FastAPI's own request validation, to its HTTP response.
+
+    ``pages`` is (path prefix, renderer): a domain error on those paths becomes a page instead of JSON.
+    """
+    app.add_exception_handler(DomainError, _domain(pages))
     app.add_exception_handler(RequestValidationError, _validation)

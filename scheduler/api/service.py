@@ -7,7 +7,7 @@ then are the jobs handed to the queue (``dispatch``), so a worker never sees an 
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from datetime import timedelta
 from typing import Any, cast
 
@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from models import BatchSpec, SpecError, parse_batch, with_durations
 from models.resolved import dump_resolved, stored_spec
-from models.results import PartResult
+from models.results import CheckBody, PartResult
 from models.settings import Settings
 from models.tables import (
     Batch,
@@ -54,10 +54,14 @@ __all__ = [
     "compare",
     "get_batch",
     "get_batch_record",
+    "get_flag",
     "list_batches",
     "list_flags",
+    "open_flag_counts",
+    "part_checks",
     "part_result",
     "rerun",
+    "rerun_ids",
     "submit",
     "suggest",
 ]
@@ -260,12 +264,20 @@ def _disposition(d: Disposition) -> DispositionPublic:
 
 
 def list_flags(
-    session: Session, batch_id: int | None, status: FlagStatus | None, limit: int, offset: int
+    session: Session,
+    batch_id: int | None,
+    status: FlagStatus | None,
+    limit: int,
+    offset: int,
+    part_id: str | None = None,
 ) -> FlagPage:
-    """Flags across batches, newest batch first; ``status`` None means every status."""
+    """Flags across batches, newest batch first, each with its dispositions; ``status`` None means
+    every status, ``part_id`` (with ``batch_id``) one part's."""
     query = select(Flag)
     if batch_id is not None:
         query = query.where(Flag.batch_id == batch_id)
+    if part_id is not None:
+        query = query.where(Flag.part_id == part_id)
     if status is not None:
         query = query.where(Flag.status == status)
     total = session.scalar(select(func.count()).select_from(query.subquery())) or 0
@@ -277,27 +289,57 @@ def list_flags(
     ).all()
     found = session.execute(select(Batch.id, Batch.label).where(Batch.id.in_({f.batch_id for f in rows})))
     labels = {batch_id: label for batch_id, label in found}
-    items = [
-        FlagPublic(
-            id=f.id,
-            batch=f.batch_id,
-            batch_label=labels.get(f.batch_id, ""),
-            part=f.part_id,
-            step=f.step,
-            at=f.at,
-            target=f.target,
-            required=f.body.get("required"),
-            achieved=f.body.get("achieved"),
-            margin=f.body.get("margin"),
-            margin_value=f.body.get("margin_value"),
-            margin_unit=f.body.get("margin_unit"),
-            message=f.body.get("message"),
-            status=FlagStatus(f.status),
-            dispositions=[_disposition(d) for d in f.dispositions],
-        )
-        for f in rows
-    ]
+    items = [_flag_public(f, labels.get(f.batch_id, "")) for f in rows]
     return FlagPage(items=items, total=total, limit=limit, offset=offset)
+
+
+def _flag_public(f: Flag, batch_label: str) -> FlagPublic:
+    return FlagPublic(
+        id=f.id,
+        batch=f.batch_id,
+        batch_label=batch_label,
+        part=f.part_id,
+        step=f.step,
+        at=f.at,
+        target=f.target,
+        required=f.body.get("required"),
+        achieved=f.body.get("achieved"),
+        margin=f.body.get("margin"),
+        margin_value=f.body.get("margin_value"),
+        margin_unit=f.body.get("margin_unit"),
+        message=f.body.get("message"),
+        status=FlagStatus(f.status),
+        dispositions=[_disposition(d) for d in f.dispositions],
+    )
+
+
+def get_flag(session: Session, flag_id: int) -> FlagPublic:
+    """One flag with its batch, part and dispositions."""
+    flag = session.scalar(select(Flag).where(Flag.id == flag_id).options(selectinload(Flag.dispositions)))
+    if flag is None:
+        raise FlagNotFound(flag_id)
+    return _flag_public(flag, _batch(session, flag.batch_id).label)
+
+
+def open_flag_counts(session: Session, batch_ids: Sequence[int]) -> dict[int, int]:
+    """Open (not yet dispositioned) flags per batch, for those of ``batch_ids`` that have any."""
+    rows = session.execute(
+        select(Flag.batch_id, func.count())
+        .where(Flag.batch_id.in_(list(batch_ids)), Flag.status == FlagStatus.OPEN.value)
+        .group_by(Flag.batch_id)
+    )
+    return {batch_id: count for batch_id, count in rows}
+
+
+def rerun_ids(session: Session, batch_id: int) -> list[int]:
+    """The batches that are reruns of this one, oldest first."""
+    return list(session.scalars(select(Batch.id).where(Batch.parent_id == batch_id).order_by(Batch.id)))
+
+
+def part_checks(session: Session, batch_id: int) -> dict[str, list[CheckBody]]:
+    """Every computed part's checks (each target, pass or fail), by part id."""
+    rows = session.execute(select(Result.part_id, Result.body).where(Result.batch_id == batch_id))
+    return {part_id: list(body.get("checks", [])) for part_id, body in rows}
 
 
 def add_disposition(

@@ -1,8 +1,10 @@
 """The review pages' routes: sign-in, batches, a batch, a part, dispositions, rerun, compare, report.
 
-Every page reads through the same service functions as the JSON API and checks roles as it does:
-viewers read, reviewers record dispositions, planners rerun. Pages render on the server (Jinja2); the
-only script is the part chart, drawn by the vendored uPlot from data embedded in the page.
+Every page reads through the service functions of the JSON API (``scheduler.api.service``: no query
+of its own) and checks roles with the API's rule (``WebPlanner``, ``WebReviewer``): viewers read,
+reviewers record dispositions, planners rerun. A domain error becomes the error page
+(:func:`error_page`). Pages render on the server (Jinja2); the only script is the part chart, drawn by
+the vendored uPlot from data embedded in the page.
 """
 
 from __future__ import annotations
@@ -14,18 +16,16 @@ from urllib.parse import urlsplit
 from fastapi import APIRouter, Form, Query, Request
 from fastapi.responses import FileResponse, HTMLResponse, PlainTextResponse, RedirectResponse, Response
 from fastapi.templating import Jinja2Templates
-from sqlalchemy import select
-from sqlalchemy.orm import selectinload
 
 from models import BatchSpec, parse_time
 from models.errors import SpecError
-from models.tables import Batch, BatchStatus, Decision, Flag, FlagStatus, Role
+from models.tables import Batch, BatchStatus, Decision, Role
 from scheduler.api import service
 from scheduler.api.auth import Principal, lookup_token
-from scheduler.api.deps import SessionDep, SettingsDep
+from scheduler.api.deps import SessionDep, SettingsDep, has_role
 from scheduler.api.errors import DomainError, InvalidInput, ResultNotReady
 from scheduler.web import views
-from scheduler.web.session import WebUser, clear_session, start_session
+from scheduler.web.session import WebPlanner, WebReviewer, WebUser, clear_session, start_session
 from scheduler.web.units import UNITS_COOKIE, Units, units_from
 from workers.jobs import NOTICE  # one wording of the safety notice, shared with the results
 
@@ -41,6 +41,14 @@ templates.env.globals["decisions"] = [d.value for d in Decision]
 router = APIRouter(prefix="/ui", include_in_schema=False)
 
 REPORT_CHARTS = 20  # at most this many curves in a printed report; the table lists every part
+ALL = 1_000_000  # a page lists every flag of its batch or part
+
+
+def _rows(session: SessionDep, batch_id: int, spec: BatchSpec, units: Units) -> list[views.PartRow]:
+    """The parts table of a batch: its status per part (the API's batch) and each part's checks."""
+    return views.part_rows(
+        service.get_batch(session, batch_id), spec, service.part_checks(session, batch_id), units
+    )
 
 
 def _safe_next(target: str | None) -> str:
@@ -62,7 +70,9 @@ def _page(
     )
 
 
-def _error(request: Request, user: Principal | None, exc: DomainError) -> HTMLResponse:
+def error_page(request: Request, exc: DomainError) -> HTMLResponse:
+    """A domain error raised on a page (a missing batch, a role the page needs) as the error page."""
+    user = getattr(request.state, "user", None)
     return _page(request, "error.html", user, exc.status_code, message=exc.message)
 
 
@@ -134,12 +144,7 @@ def batches(
 ) -> HTMLResponse:
     chosen = BatchStatus(status) if status in {s.value for s in BatchStatus} else None
     page = service.list_batches(session, chosen, 50, max(0, offset))
-    ids = [b.id for b in page.items]
-    open_counts: dict[int, int] = {}
-    for (batch_id,) in session.execute(
-        select(Flag.batch_id).where(Flag.batch_id.in_(ids), Flag.status == FlagStatus.OPEN.value)
-    ):
-        open_counts[batch_id] = open_counts.get(batch_id, 0) + 1
+    open_counts = service.open_flag_counts(session, [b.id for b in page.items])
     return _page(
         request,
         "batches.html",
@@ -153,21 +158,18 @@ def batches(
 
 @router.get("/batches/{batch_id}", response_class=HTMLResponse)
 def batch_page(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
-    try:
-        batch, spec = service.get_batch_record(session, batch_id)
-    except DomainError as exc:
-        return _error(request, user, exc)
+    batch, spec = service.get_batch_record(session, batch_id)
     units = units_from(request)
     return _page(
         request,
         "batch.html",
         user,
         batch=batch,
-        rows=views.part_rows(session, batch, spec, units),
+        rows=_rows(session, batch_id, spec, units),
         schedule=views.schedule_rows(spec, units),
         hold_steps=views.hold_steps(spec),
         busy=batch.status in (BatchStatus.QUEUED, BatchStatus.RUNNING),
-        reruns=session.scalars(select(Batch.id).where(Batch.parent_id == batch.id)).all(),
+        reruns=service.rerun_ids(session, batch_id),
     )
 
 
@@ -180,27 +182,16 @@ def suggest_page(
     user: WebUser,
     step: Annotated[str, Query(min_length=1)],
 ) -> HTMLResponse:
-    try:
-        answer = service.suggest(session, settings, batch_id, step)
-    except DomainError as exc:
-        return _error(request, user, exc)
+    answer = service.suggest(session, settings, batch_id, step)
     return _page(request, "suggest.html", user, batch_id=batch_id, answer=answer)
 
 
 @router.get("/batches/{batch_id}/report", response_class=HTMLResponse)
 def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
-    try:
-        batch, spec = service.get_batch_record(session, batch_id)
-    except DomainError as exc:
-        return _error(request, user, exc)
+    batch, spec = service.get_batch_record(session, batch_id)
     units = units_from(request)
-    flags = session.scalars(
-        select(Flag)
-        .where(Flag.batch_id == batch_id)
-        .options(selectinload(Flag.dispositions))
-        .order_by(Flag.part_id, Flag.seq)
-    ).all()
-    rows = views.part_rows(session, batch, spec, units)
+    flags = service.list_flags(session, batch_id, None, ALL, 0).items
+    rows = _rows(session, batch_id, spec, units)
     # Curves of the flagged parts only: they are what the report is read for, and a batch may be large.
     charts = [
         views.chart_payload(service.part_result(session, batch_id, r.id), units) for r in rows if r.flagged
@@ -224,13 +215,11 @@ def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) 
 def part_page(
     request: Request, batch_id: int, part_id: str, session: SessionDep, user: WebUser
 ) -> HTMLResponse:
+    batch, spec = service.get_batch_record(session, batch_id)
     try:
-        batch, spec = service.get_batch_record(session, batch_id)
         body = service.part_result(session, batch_id, part_id)
     except ResultNotReady as exc:
         return _page(request, "pending.html", user, 200, message=exc.message, batch_id=batch_id)
-    except DomainError as exc:
-        return _error(request, user, exc)
     units = units_from(request)
     return _page(
         request,
@@ -240,8 +229,8 @@ def part_page(
         part=body,
         size=views.part_size(next(p for p in spec.parts if p.id == part_id), units),
         chart=views.chart_payload(body, units),
-        flags=views.flags_with_history(session, batch_id, part_id),
-        can_review=user.role == Role.REVIEWER,
+        flags=service.list_flags(session, batch_id, None, ALL, 0, part_id=part_id).items,
+        can_review=has_role(user, Role.REVIEWER),
     )
 
 
@@ -264,17 +253,12 @@ def disposition(
     request: Request,
     flag_id: int,
     session: SessionDep,
-    user: WebUser,
+    user: WebReviewer,
     decision: Annotated[str, Form()] = "",
     comment: Annotated[str, Form()] = "",
 ) -> Response:
-    flag = session.get(Flag, flag_id)
-    if flag is None:
-        return _page(request, "error.html", user, 404, message=f"flag {flag_id} not found")
-    if user.role != Role.REVIEWER:
-        message = f"Recording a disposition needs a reviewer token; {user.name} is a {user.role.value}."
-        return _page(request, "error.html", user, 403, message=message)
-    back = f"/ui/batches/{flag.batch_id}/parts/{flag.part_id}"
+    flag = service.get_flag(session, flag_id)
+    back = f"/ui/batches/{flag.batch}/parts/{flag.part}"
     if decision not in {d.value for d in Decision} or not comment.strip():
         message = "Choose a decision and write a comment (what was decided and why)."
         return _page(request, "error.html", user, 422, message=message, back=back)
@@ -299,25 +283,16 @@ def rerun_form(
     step: str | None = None,
     duration: str | None = None,
 ) -> HTMLResponse:
-    try:
-        batch, spec = service.get_batch_record(session, batch_id)
-    except DomainError as exc:
-        return _error(request, user, exc)
+    batch, spec = service.get_batch_record(session, batch_id)
     suggested = {step: duration} if step and duration else None
     return _page(request, "rerun.html", user, problems=[], **_rerun_context(batch, spec, suggested))
 
 
 @router.post("/batches/{batch_id}/rerun", response_class=HTMLResponse)
 async def rerun(
-    request: Request, batch_id: int, session: SessionDep, settings: SettingsDep, user: WebUser
+    request: Request, batch_id: int, session: SessionDep, settings: SettingsDep, user: WebPlanner
 ) -> Response:
-    try:
-        batch, spec = service.get_batch_record(session, batch_id)
-    except DomainError as exc:
-        return _error(request, user, exc)
-    if user.role != Role.PLANNER:
-        message = f"A rerun needs a planner token; {user.name} is a {user.role.value}."
-        return _page(request, "error.html", user, 403, message=message)
+    batch, spec = service.get_batch_record(session, batch_id)
     form = await request.form()
     values = {s.name: str(form.get(f"duration:{s.name}", s.duration)).strip() for s in spec.schedule}
     changed: dict[str, str] = {}
@@ -349,11 +324,8 @@ def compare(
     user: WebUser,
     part: str | None = None,
 ) -> HTMLResponse:
-    try:
-        result = service.compare(session, batch_id, other_id)
-        (before, _), (after, _) = (service.get_batch_record(session, i) for i in (batch_id, other_id))
-    except DomainError as exc:
-        return _error(request, user, exc)
+    result = service.compare(session, batch_id, other_id)
+    (before, _), (after, _) = (service.get_batch_record(session, i) for i in (batch_id, other_id))
     rows = [views.compare_row(p) for p in result.parts]
     busy = any(r["change"] == "pending" for r in rows)
     ready = [r["id"] for r in rows if r["change"] != "pending"]

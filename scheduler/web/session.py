@@ -8,6 +8,7 @@ keeps the pages' forms safe from cross-site posts).
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Annotated
 from urllib.parse import quote
 
@@ -16,13 +17,15 @@ from fastapi.responses import Response
 
 from models.tables import Role
 from scheduler.api.auth import Principal, lookup_token
-from scheduler.api.deps import SessionDep
+from scheduler.api.deps import SessionDep, check_role
 
 __all__ = [
     "SESSION_COOKIE",
+    "WebPlanner",
+    "WebReviewer",
     "WebUser",
     "clear_session",
-    "has_role",
+    "page_role",
     "page_user",
     "start_session",
 ]
@@ -49,9 +52,13 @@ def clear_session(response: Response) -> None:
 
 
 def page_user(request: Request, session: SessionDep) -> Principal:
-    """The signed-in principal; a page without a valid session redirects to the sign-in page."""
+    """The signed-in principal; a page without a valid session redirects to the sign-in page.
+
+    It is kept on ``request.state.user`` so that an error page can say who is signed in.
+    """
     token = request.cookies.get(SESSION_COOKIE)
     principal = lookup_token(session, token) if token else None
+    request.state.user = principal
     if principal is None:
         target = request.url.path + (f"?{request.url.query}" if request.url.query else "")
         raise HTTPException(
@@ -65,5 +72,14 @@ def page_user(request: Request, session: SessionDep) -> Principal:
 WebUser = Annotated[Principal, Depends(page_user)]
 
 
-def has_role(user: Principal, role: Role) -> bool:
-    return user.role == role
+def page_role(role: Role) -> Callable[[Principal], Principal]:
+    """Page dependency that lets only ``role`` through, by the API's own rule (403 otherwise)."""
+
+    def check(principal: WebUser) -> Principal:
+        return check_role(principal, role)
+
+    return check
+
+
+WebPlanner = Annotated[Principal, Depends(page_role(Role.PLANNER))]
+WebReviewer = Annotated[Principal, Depends(page_role(Role.REVIEWER))]

@@ -7,16 +7,14 @@ from __future__ import annotations
 
 import csv
 import io
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import select
-from sqlalchemy.orm import Session, selectinload
-
 from models import BatchSpec, PartSpec, StepSpec
-from models.results import PartResult, TraceBody
-from models.tables import Batch, Flag, Job, Part, Result
-from scheduler.api.schemas import ComparePart
+from models.results import CheckBody, PartResult, TraceBody
+from models.tables import FlagStatus
+from scheduler.api.schemas import BatchPublic, ComparePart
 from scheduler.web.units import Units
 from workers.targets import TEMPERATURE_KINDS
 
@@ -25,7 +23,6 @@ __all__ = [
     "PartRow",
     "chart_payload",
     "compare_row",
-    "flags_with_history",
     "hold_steps",
     "overlay_payload",
     "part_rows",
@@ -58,39 +55,30 @@ class PartRow:
     material: str
     status: str
     flagged: bool | None
-    checks: list[dict[str, Any]] = field(default_factory=list)
+    checks: list[CheckBody] = field(default_factory=list)
     open_flags: int = 0
     error: str | None = None
 
 
-def part_rows(session: Session, batch: Batch, spec: BatchSpec, units: Units) -> list[PartRow]:
+def part_rows(
+    batch: BatchPublic, spec: BatchSpec, checks: Mapping[str, list[CheckBody]], units: Units
+) -> list[PartRow]:
     """Every part in file order, with its job status and, once computed, each target's outcome."""
     specs = {p.id: p for p in spec.parts}
-    jobs = {j.part_id: j for j in session.scalars(select(Job).where(Job.batch_id == batch.id))}
-    results = {r.part_id: r for r in session.scalars(select(Result).where(Result.batch_id == batch.id))}
-    open_flags: dict[str, int] = {}
-    for flag in session.scalars(select(Flag).where(Flag.batch_id == batch.id, Flag.status == "open")):
-        open_flags[flag.part_id] = open_flags.get(flag.part_id, 0) + 1
-    order = session.scalars(select(Part.part_id).where(Part.batch_id == batch.id).order_by(Part.position))
-    rows = []
-    for pid in order:
-        p = specs[pid]
-        result = results.get(pid)
-        job = jobs.get(pid)
-        rows.append(
-            PartRow(
-                id=pid,
-                shape=p.shape,
-                size=part_size(p, units),
-                material=p.material_name,
-                status=job.status if job else "unknown",
-                flagged=None if result is None else bool(result.flagged),
-                checks=list(result.body.get("checks", [])) if result else [],
-                open_flags=open_flags.get(pid, 0),
-                error=job.error if job else None,
-            )
+    return [
+        PartRow(
+            id=part.id,
+            shape=specs[part.id].shape,
+            size=part_size(specs[part.id], units),
+            material=specs[part.id].material_name,
+            status=part.status.value,
+            flagged=part.flagged,
+            checks=list(checks.get(part.id, [])),
+            open_flags=sum(1 for f in part.flags if f.get("status") == FlagStatus.OPEN.value),
+            error=part.error,
         )
-    return rows
+        for part in batch.parts
+    ]
 
 
 def _step_text(step: StepSpec, units: Units) -> dict[str, str]:
@@ -164,18 +152,6 @@ def chart_payload(body: PartResult, units: Units) -> dict[str, Any]:
         "thresholds": thresholds,
         "spans": spans,
     }
-
-
-def flags_with_history(session: Session, batch_id: int, part_id: str) -> list[Flag]:
-    """The part's flags with their dispositions, oldest first."""
-    return list(
-        session.scalars(
-            select(Flag)
-            .where(Flag.batch_id == batch_id, Flag.part_id == part_id)
-            .options(selectinload(Flag.dispositions))
-            .order_by(Flag.seq)
-        )
-    )
 
 
 def trace_csv(body: PartResult, units: Units) -> str:

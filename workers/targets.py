@@ -25,6 +25,7 @@ from numpy.typing import NDArray
 
 from models.results import CheckBody, FlagBody
 from workers.thermal import Trace
+from workers.thermal.constants import KELVIN
 
 FloatArray = NDArray[np.float64]
 Kind = Literal[
@@ -35,7 +36,6 @@ MissSpans = tuple[tuple[float, float], ...]
 # Targets whose value is a temperature on the trace's own axis (a chart draws them as a line).
 TEMPERATURE_KINDS: tuple[str, ...] = ("hold_above", "stay_below", "fall_below")
 
-KELVIN = 273.15
 HOUR_S = 3600.0
 
 __all__ = [

@@ -26,7 +26,7 @@ if str(ROOT) not in sys.path:
 from tests.reference.cases import CR_MO_STEEL, EUROCODE_STEEL, heat_treat_schedule  # noqa: E402
 from tests.reference.mol import MolResult, solve  # noqa: E402
 from workers.thermal import Tolerance, simulate  # noqa: E402
-from workers.thermal.spec import FloatArray, PartThermal, Shape, ShapeKind, Step, Trace  # noqa: E402
+from workers.thermal.spec import FloatArray, PartThermal, Shape, ShapeName, Step, Trace  # noqa: E402
 
 # cheapest first: (cells, rtol)
 LADDER = [(8, 1e-4), (12, 1e-5), (16, 1e-5), (24, 1e-6), (32, 1e-6), (48, 1e-7), (64, 1e-7), (96, 1e-8)]
@@ -37,7 +37,7 @@ def batch(n: int, materials: str, seed: int) -> list[PartThermal]:
     rng = np.random.default_rng(seed)
     parts = []
     for i in range(n):
-        kind: ShapeKind = "plate" if i % 2 == 0 else "bar"
+        kind: ShapeName = "plate" if i % 2 == 0 else "bar"
         size = float(rng.uniform(0.005, 0.06) if kind == "plate" else rng.uniform(0.005, 0.075))
         if materials == "mixed":
             mat = EUROCODE_STEEL if rng.random() < 0.5 else CR_MO_STEEL

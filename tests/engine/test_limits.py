@@ -12,7 +12,7 @@ from tests.engine.support import record, run_one
 from tests.reference import analytic as an
 from tests.reference.cases import CR_MO_STEEL, OIL_QUENCH, PLAIN_CARBON, const_face, constant_steel
 from workers.thermal import eigen, modes, simulate
-from workers.thermal.spec import Face, PartThermal, Shape, ShapeKind, Step
+from workers.thermal.spec import Face, PartThermal, Shape, ShapeName, Step
 
 
 def test_worked_shaft_example() -> None:
@@ -40,7 +40,7 @@ def test_worked_shaft_example() -> None:
 
 
 @pytest.mark.parametrize("kind", ["plate", "bar"])
-def test_lumped_limit_for_small_biot(kind: ShapeKind) -> None:
+def test_lumped_limit_for_small_biot(kind: ShapeName) -> None:
     # from memory: lumped capacitance, theta = theta0 exp(-h A t / (rho c V)), V/A = a (plate), R/2 (bar);
     # the distributed solution departs from it by O(Bi)
     mat = PLAIN_CARBON

@@ -13,7 +13,7 @@ import pytest
 
 from tests.engine.support import record, run_one
 from tests.reference.cases import CR_MO_STEEL, const_face
-from workers.thermal.spec import PartThermal, Shape, ShapeKind, Step, Trace
+from workers.thermal.spec import PartThermal, Shape, ShapeName, Step, Trace
 
 T0, AMB, H, DUR = 850.0, 60.0, 600.0, 1800.0
 SOURCE = "from memory"  # product solutions for multidimensional conduction (separation of variables)
@@ -23,7 +23,7 @@ def ratios(tr: Trace) -> dict[str, np.ndarray]:
     return {name: (getattr(tr, name) - AMB) / (T0 - AMB) for name in ("core_c", "surface_c", "mean_c")}
 
 
-def one_d(kind: ShapeKind, size: float) -> tuple[dict[str, np.ndarray], np.ndarray]:
+def one_d(kind: ShapeName, size: float) -> tuple[dict[str, np.ndarray], np.ndarray]:
     part = PartThermal(Shape(kind, (size,)), CR_MO_STEEL, T0)
     tr = run_one(part, [Step(DUR, AMB, const_face(H))], samples=60)
     return ratios(tr), tr.bound_k

@@ -83,17 +83,17 @@ def plate_roots(Bi: FloatArray, n: int, guess: FloatArray | None = None) -> Floa
     return np.where(w == 1.0, hi, lam)
 
 
-_J0_ZEROS = special.jn_zeros(0, 1000)
-_J1_ZEROS = np.concatenate(([0.0], special.jn_zeros(1, 999)))
+J0_ZEROS = special.jn_zeros(0, 1000)
+J1_ZEROS = np.concatenate(([0.0], special.jn_zeros(1, 999)))
 
 
 def bar_roots(Bi: FloatArray, n: int, guess: FloatArray | None = None) -> FloatArray:
     """First ``n`` roots of lam J1(lam) = Bi J0(lam) for each Bi; shape (len(Bi), n)."""
-    if n > len(_J0_ZEROS):
-        raise ValueError(f"at most {len(_J0_ZEROS)} bar modes are supported, asked for {n}")
+    if n > len(J0_ZEROS):
+        raise ValueError(f"at most {len(J0_ZEROS)} bar modes are supported, asked for {n}")
     w = biot_weight(np.atleast_1d(Bi))[:, None]
-    lo = np.broadcast_to(_J1_ZEROS[:n][None, :], (w.shape[0], n)).copy()
-    hi = np.broadcast_to(_J0_ZEROS[:n][None, :], (w.shape[0], n)).copy()
+    lo = np.broadcast_to(J1_ZEROS[:n][None, :], (w.shape[0], n)).copy()
+    hi = np.broadcast_to(J0_ZEROS[:n][None, :], (w.shape[0], n)).copy()
 
     def f(lam: FloatArray) -> tuple[FloatArray, FloatArray]:
         j0, j1 = special.j0(lam), special.j1(lam)

@@ -19,7 +19,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from workers.thermal import eigen, layout, modes, tensor
-from workers.thermal.frozen import Frozen, MaterialSet, face_coefficient
+from workers.thermal.layout import AXES, TAIL, Layout
+from workers.thermal.properties import slowest_diffusivity
 from workers.thermal.spec import Face, FloatArray, PartThermal, Step, Tolerance
 
 _CHUNK = 4_000_000  # elements of exp(-K t) evaluated at once
@@ -36,21 +37,23 @@ class FaceDef:
     second: bool  # uses the step's second face and ambient
 
 
-FACES: dict[layout.Layout, tuple[FaceDef, ...]] = {
-    "plate": (FaceDef(0, 1.0, 1.0, 1.0, False),),
-    "plate2": (FaceDef(0, 0.0, 1.0, -1.0, False), FaceDef(0, 1.0, 1.0, 1.0, True)),
-    "bar": (FaceDef(0, 1.0, 2.0, 1.0, False),),
-    "block": tuple(FaceDef(i, 1.0, 1.0, 1.0, False) for i in range(3)),
-    "cylinder": (FaceDef(0, 1.0, 2.0, 1.0, False), FaceDef(1, 1.0, 1.0, 1.0, False)),
+FACES: dict[Layout, tuple[FaceDef, ...]] = {
+    Layout.PLATE: (FaceDef(0, 1.0, 1.0, 1.0, False),),
+    Layout.PLATE2: (FaceDef(0, 0.0, 1.0, -1.0, False), FaceDef(0, 1.0, 1.0, 1.0, True)),
+    Layout.BAR: (FaceDef(0, 1.0, 2.0, 1.0, False),),
+    Layout.BLOCK: tuple(FaceDef(i, 1.0, 1.0, 1.0, False) for i in range(3)),
+    Layout.CYLINDER: (FaceDef(0, 1.0, 2.0, 1.0, False), FaceDef(1, 1.0, 1.0, 1.0, False)),
 }
 
 
-@dataclass
+@dataclass(frozen=True)
 class State:
-    """Where a group stands: modes, coefficients and the offset line sA + sB xi, all at one instant.
+    """Where a group stands at the end of a step: what the next step starts from, whatever its method.
 
-    After a marched step (1-D layouts, see ``march``) the profile is held as node temperatures instead:
-    ``profile`` = (xi (n,), T (P, n)), piecewise linear between the nodes, added to the offset line.
+    A series leaves modes, coefficients A and the offset line sA + sB xi. A marched step (1-D layouts,
+    see ``line``) leaves the profile as node temperatures instead, ``profile`` = (xi (n,), T (P, n)),
+    piecewise linear between the nodes and added to the offset line (zero then), and ``carry``, the
+    march's own end state, from which a following marched step continues exactly.
     """
 
     modes: list[modes.Modes] | None
@@ -58,6 +61,32 @@ class State:
     sA: FloatArray
     sB: FloatArray
     profile: tuple[FloatArray, FloatArray] | None = None
+    carry: FloatArray | None = None
+
+    @staticmethod
+    def uniform(temp_c: FloatArray) -> State:
+        return State(None, None, np.asarray(temp_c, dtype=float).copy(), np.zeros(len(temp_c)))
+
+    def temperatures(self, xi: FloatArray) -> FloatArray:
+        """Temperatures (P, n) of a 1-D layout at the points ``xi`` (n,)."""
+        T = self.sA[:, None] + self.sB[:, None] * xi[None, :]
+        if self.A is not None and self.modes is not None:
+            X = _spread(self.modes[0]).at(xi[None, None, :])  # (P, M, n)
+            T = T + np.einsum("pm,pmn->pn", self.A, X)
+        if self.profile is not None:
+            px, pT = self.profile
+            T = T + np.stack([np.interp(xi, px, row) for row in pT])
+        return np.asarray(T, dtype=float)
+
+
+@dataclass(frozen=True)
+class Coefficients:
+    """The constants of a linear step: face coefficients h (P, F) W/m^2/K, conductivity k (P,) W/m/K
+    and heat capacity rc (P,) J/m^3/K."""
+
+    h: FloatArray
+    k: FloatArray
+    rc: FloatArray
 
 
 @dataclass(frozen=True)
@@ -81,17 +110,16 @@ class Sub:
 class Group:
     """Parts of one layout, with everything the series need per part as arrays."""
 
-    def __init__(self, kind: layout.Layout, parts: Sequence[PartThermal], tol: Tolerance) -> None:
-        self.kind = kind
-        self.kinds = layout.AXES[kind]
-        self.faces = FACES[kind]
+    def __init__(self, layout_: Layout, parts: Sequence[PartThermal], tol: Tolerance) -> None:
+        self.layout = layout_
+        self.axes = AXES[layout_]
+        self.faces = FACES[layout_]
         self.P = len(parts)
         self.parts = list(parts)
-        self.lengths = np.array([layout.axis_lengths(kind, p) for p in parts], dtype=float)
-        self.points = layout.points(kind, self.lengths)
-        self.mats = MaterialSet([p.material for p in parts])
+        self.lengths = np.array([layout.axis_lengths(layout_, p) for p in parts], dtype=float)
+        self.points = layout.points(layout_, self.lengths)
         self.initial = np.array([p.initial_c for p in parts], dtype=float)
-        self.alpha_min = self.mats.slowest_diffusivity()
+        self.alpha_min = np.array([slowest_diffusivity(p.material) for p in parts], dtype=float)
         self.tol = tol
         self.n_modes: tuple[int, ...] = ()
 
@@ -101,14 +129,14 @@ class Group:
 
         ``alpha`` is the diffusivity of each part (m^2/s).
         """
-        d = len(self.kinds)
+        d = len(self.axes)
         budget = self.tol.series_k / d / 3.0 ** (d - 1)
         n = []
-        for i, kind in enumerate(self.kinds):
+        for i, axis in enumerate(self.axes):
             ell2 = self.lengths[:, i] ** 2
             decay = float(np.min(alpha * tau_s / ell2))
             forced = float(np.max(abs(rate_k_s) * ell2 / alpha))
-            n.append(layout.choose_modes(kind, d, decay, span_k, forced, budget))
+            n.append(layout.choose_modes(axis, d, decay, span_k, forced, budget))
         self.n_modes = tuple(n)
 
     def bound(self, tau_s: FloatArray, span_k: FloatArray, rate_k_s: float, alpha: FloatArray) -> FloatArray:
@@ -117,22 +145,22 @@ class Group:
         total = np.zeros((self.P, tau_s.size))
         heads = []
         tails = []
-        for i, kind in enumerate(self.kinds):
+        for i, axis in enumerate(self.axes):
             ell2 = self.lengths[:, i : i + 1] ** 2
             decay = alpha[:, None] * tau_s[None, :] / ell2
-            h, t = layout.tail_sums(kind, self.n_modes[i], decay)
-            lam = layout.lower_roots(kind, self.n_modes[i] + layout._TAIL)
+            h, t = layout.tail_sums(axis, self.n_modes[i], decay)
+            lam = layout.lower_roots(axis, self.n_modes[i] + TAIL)
             lag = (
-                layout.forced_terms(kind, lam)[self.n_modes[i] :].sum()
+                layout.forced_terms(axis, lam)[self.n_modes[i] :].sum()
                 * abs(rate_k_s)
                 * ell2
                 / alpha[:, None]
             )
             heads.append(h)
             tails.append(span_k[:, None] * t + lag)
-        for i in range(len(self.kinds)):
+        for i in range(len(self.axes)):
             term = tails[i].copy()
-            for j in range(len(self.kinds)):
+            for j in range(len(self.axes)):
                 if j != i:
                     term = term * (heads[j] + tails[j] / np.maximum(span_k[:, None], 1e-12))
             total = total + term
@@ -161,51 +189,46 @@ class Group:
                 out.append((step.face, main))
         return out
 
-    def freeze(
-        self,
-        specs: Sequence[tuple[Face, Callable[[float], float]]],
-        face_c: FloatArray,
-        mean_c: FloatArray,
-        t: float,
-    ) -> Frozen:
-        h = np.stack(
-            [
-                face_coefficient(face, face_c[:, i], np.full(self.P, amb(t)))
-                for i, (face, amb) in enumerate(specs)
-            ],
-            axis=1,
-        )
-        return Frozen(h, self.mats.conductivity(mean_c), self.mats.heat_capacity(mean_c))
+    def coefficients(self, specs: Sequence[tuple[Face, Callable[[float], float]]]) -> Coefficients:
+        """h, k and rho c of a linear step (constant h, no radiation, constant properties)."""
+        if not all(face.is_linear for face, _ in specs) or not all(
+            p.material.is_constant for p in self.parts
+        ):
+            raise ValueError("a series step needs constant h, no radiation and constant properties")
+        h = np.array([[face.htc.value[0] for face, _ in specs]] * self.P, dtype=float)
+        k = np.array([p.material.conductivity.value[0] for p in self.parts], dtype=float)
+        rc = np.array([p.material.density * p.material.specific_heat.value[0] for p in self.parts])
+        return Coefficients(h, k, rc)
 
     # ------------------------------------------------------------------ steps
-    def _make_modes(self, fr: Frozen, guess: list[modes.Modes] | None) -> list[modes.Modes]:
+    def _make_modes(self, co: Coefficients, guess: list[modes.Modes] | None) -> list[modes.Modes]:
         out: list[modes.Modes] = []
-        for i, kind in enumerate(self.kinds):
+        for i, axis in enumerate(self.axes):
             n = self.n_modes[i]
             g = guess[i].z[:, :n] if guess is not None and guess[i].z.shape[1] >= n else None
             ell = self.lengths[:, i]
-            if kind == "two":
+            if axis == Layout.PLATE2:
                 with np.errstate(invalid="ignore"):
-                    B1 = fr.h[:, 0] * ell / fr.k
-                    B2 = fr.h[:, 1] * ell / fr.k
+                    B1 = co.h[:, 0] * ell / co.k
+                    B2 = co.h[:, 1] * ell / co.k
                 z = eigen.two_face_roots(B1, B2, n, g)
                 out.append(modes.TrigModes.two_face(z, eigen.biot_weight(B1)))
                 continue
             fi = next(j for j, f in enumerate(self.faces) if f.axis == i)
-            Bi = fr.h[:, fi] * ell / fr.k
-            if kind == "trig":
+            Bi = co.h[:, fi] * ell / co.k
+            if axis == Layout.PLATE:
                 out.append(modes.TrigModes.symmetric(eigen.plate_roots(Bi, n, g)))
             else:
                 out.append(modes.BesselModes(eigen.bar_roots(Bi, n, g)))
         return out
 
-    def _offset(self, fr: Frozen, amb: FloatArray) -> tuple[FloatArray, FloatArray]:
+    def _offset(self, co: Coefficients, amb: FloatArray) -> tuple[FloatArray, FloatArray]:
         """Offset line (sA, sB) for face ambients ``amb`` (P, F)."""
-        if self.kind != "plate2":
+        if self.layout != Layout.PLATE2:
             return amb[:, 0].copy(), np.zeros(self.P)
         L = self.lengths[:, 0]
-        w1 = eigen.biot_weight(fr.h[:, 0] * L / fr.k)
-        w2 = eigen.biot_weight(fr.h[:, 1] * L / fr.k)
+        w1 = eigen.biot_weight(co.h[:, 0] * L / co.k)
+        w2 = eigen.biot_weight(co.h[:, 1] * L / co.k)
         u1, u2 = 1 - w1, 1 - w2
         T1, T2 = amb[:, 0], amb[:, 1]
         det = -(w1 * u2 + w1 * w2 + u1 * w2)
@@ -216,23 +239,19 @@ class Group:
         return np.where(insulated, T1, sA), np.where(insulated, 0.0, sB)
 
     def prepare(
-        self,
-        state: State,
-        fr: Frozen,
-        specs: Sequence[tuple[Face, Callable[[float], float]]],
-        t: float,
+        self, state: State, co: Coefficients, specs: Sequence[tuple[Face, Callable[[float], float]]]
     ) -> Sub:
-        """Re-expand the state on the modes of ``fr`` at step time ``t``."""
-        md = self._make_modes(fr, state.modes)
-        amb0 = np.array([[amb(t) for _, amb in specs]] * self.P)
-        amb1 = np.array([[amb(t + 1.0) for _, amb in specs]] * self.P)
-        sA, sB = self._offset(fr, amb0)
-        sA1, sB1 = self._offset(fr, amb1)
+        """Re-expand the state on the modes of ``co`` at the step's start."""
+        md = self._make_modes(co, state.modes)
+        amb0 = np.array([[amb(0.0) for _, amb in specs]] * self.P)
+        amb1 = np.array([[amb(1.0) for _, amb in specs]] * self.P)
+        sA, sB = self._offset(co, amb0)
+        sA1, sB1 = self._offset(co, amb1)
         ones = [modes.ones(m) for m in md]
         one = tensor.outer(ones)
         A0 = (state.sA - sA).reshape((-1,) + (1,) * len(md)) * one
         exact_mean = (state.sA - sA) + 0.5 * (state.sB - sB)
-        if self.kind == "plate2":
+        if self.layout == Layout.PLATE2:
             xi = modes.xi_coefficients(md[0])  # type: ignore[arg-type]
             A0 = A0 + (state.sB - sB)[:, None] * xi
         if state.A is not None and state.modes is not None:
@@ -246,19 +265,19 @@ class Group:
             exact_mean = exact_mean + mean
         # The dropped modes of the new expansion hold the rest of the mean; by the first reported time
         # they have decayed (the mode count sees to it), so their heat has crossed the faces.
-        heat_jump = -fr.rc * (exact_mean - self._mean(md, A0))
-        alpha = fr.k / fr.rc
+        heat_jump = -co.rc * (exact_mean - self._mean(md, A0))
+        alpha = co.k / co.rc
         K = tensor.add_axes(
             [alpha[:, None] * m.z**2 / self.lengths[:, i : i + 1] ** 2 for i, m in enumerate(md)]
         )
         dsA, dsB = sA1 - sA, sB1 - sB
         S = dsA.reshape((-1,) + (1,) * len(md)) * one
-        if self.kind == "plate2":
+        if self.layout == Layout.PLATE2:
             S = S + dsB[:, None] * modes.xi_coefficients(md[0])  # type: ignore[arg-type,operator]
         # Under a ramp the dropped modes settle at once into their quasi-steady lag and from then on
         # pass the source's share that the kept modes miss straight through the faces.
-        heat_rate = fr.rc * ((dsA + 0.5 * dsB) - self._mean(md, S))
-        return Sub(md, A0, K, S, sA, sB, dsA, dsB, fr.k, heat_jump, heat_rate, self.functionals(md))
+        heat_rate = co.rc * ((dsA + 0.5 * dsB) - self._mean(md, S))
+        return Sub(md, A0, K, S, sA, sB, dsA, dsB, co.k, heat_jump, heat_rate, self.functionals(md))
 
     def _mean(self, md: list[modes.Modes], A: FloatArray) -> FloatArray:
         w = tensor.outer([modes.mean_weights(m) for m in md]).reshape(self.P, -1)
@@ -315,7 +334,7 @@ class Group:
             t = dt[c0 : c0 + step]
             x = K[:, None, :] * t[None, :, None]
             E = np.exp(-x)
-            ph = phi(x)
+            ph = tensor.phi(x)
             val_parts.append(
                 np.einsum("pfM,ptM->pft", VA, E) - np.einsum("pfM,ptM->pft", VS, ph * t[None, :, None])
             )
@@ -336,20 +355,9 @@ class Group:
         heat = np.concatenate(heat_parts, axis=1)
         return {n: vals[:, i, :] for i, n in enumerate(names)}, heat
 
-    def temperatures(self, state: State, xi: FloatArray) -> FloatArray:
-        """Temperatures (P, n) of a 1-D layout at the points ``xi`` (n,)."""
-        T = state.sA[:, None] + state.sB[:, None] * xi[None, :]
-        if state.A is not None and state.modes is not None:
-            X = _spread(state.modes[0]).at(xi[None, None, :])  # (P, M, n)
-            T = T + np.einsum("pm,pmn->pn", state.A, X)
-        if state.profile is not None:
-            px, pT = state.profile
-            T = T + np.stack([np.interp(xi, px, row) for row in pT])
-        return np.asarray(T, dtype=float)
-
     def advance(self, sub: Sub, dt: float) -> State:
         x = sub.K * dt
-        A = sub.A0 * np.exp(-x) - sub.S * dt * phi(x)
+        A = sub.A0 * np.exp(-x) - sub.S * dt * tensor.phi(x)
         return State(sub.modes, A, sub.sA + sub.dsA * dt, sub.sB + sub.dsB * dt)
 
 
@@ -380,7 +388,3 @@ def _project(m: modes.Modes, xi: FloatArray, T: FloatArray) -> tuple[FloatArray,
     coef = np.einsum("pmq,pq->pm", X, Tq * wq) / m.norm2()
     mean = (Tq * wq).sum(axis=1) / m.weight_total
     return np.asarray(coef, dtype=float), np.asarray(mean, dtype=float)
-
-
-def phi(x: FloatArray) -> FloatArray:
-    return tensor.phi(x)

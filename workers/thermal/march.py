@@ -21,9 +21,9 @@ on tensor grids of the same 1-D nodes):
   are extrapolated, (4 fine - coarse) / 3, which removes the O(dx^2) error of the grid; |fine - coarse|
   / 3, the fine grid's own error estimate, plus the sum of the local time-error estimates, is the
   reported error bound.
-- Vectorised: all nodes of all parts and both grids sit in one flat array; every Newton iteration is one
-  tridiagonal (banded) solve over all of them for 1-D parts, couplings cut between parts and grids, or
-  one sparse solve for solids.
+- Vectorised: all nodes of all parts and both grids sit in one flat array; the march owns a ``Solver``
+  that knows how the nodes are coupled: ``ChainSolver`` (1-D parts, one tridiagonal solve over all of
+  them, couplings cut between parts and grids) or ``SparseSolver`` (tensor grids).
 
 The grids, property tables and face laws are in ``nodes``.
 """
@@ -31,6 +31,7 @@ The grids, property tables and face laws are in ``nodes``.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any, Protocol
 
 import numpy as np
 from numpy.typing import NDArray
@@ -53,18 +54,100 @@ COMPACT = 0.6  # once fewer than this share of the parts still step, the finishe
 GMRES_ITERATIONS = 20  # more than this with the kept factorization, and it is refreshed
 
 
-def _sparse_solve(nodes: Nodes, J: sparse.csc_matrix, rhs: FloatArray) -> FloatArray:
-    """Solve J x = rhs: GMRES preconditioned with an LU factorization kept from an earlier Jacobian
-    (the Jacobian changes slowly from one Newton iteration and time step to the next); a fresh LU when
-    that no longer converges quickly."""
-    lu = nodes.factor
-    if lu is not None:
-        pre = splinalg.LinearOperator(J.shape, matvec=lu.solve)
-        x, info = splinalg.gmres(J, rhs, rtol=1e-5, atol=0.0, restart=GMRES_ITERATIONS, maxiter=1, M=pre)
-        if info == 0:
-            return np.asarray(x, dtype=float)
-    nodes.factor = splinalg.splu(J, permc_spec="MMD_AT_PLUS_A")
-    return np.asarray(nodes.factor.solve(rhs), dtype=float)
+class Solver(Protocol):
+    """Conduction between the nodes and the solve of the Newton system, for one way of coupling them.
+
+    The Jacobian of a node's balance is ``diag`` on the diagonal plus, for every coupling of conductance
+    c between nodes i and j, the Kirchhoff terms g c k_i and g c k_j (g the part's weight); ``net`` is
+    the conduction flow into every node from the Kirchhoff integrals ``Kc``.
+    """
+
+    def net(self, nodes: Nodes, Kc: FloatArray) -> FloatArray: ...
+
+    def solve(
+        self, nodes: Nodes, gn: FloatArray, k: FloatArray, diag: FloatArray, rhs: FloatArray
+    ) -> FloatArray: ...
+
+    def reset(self) -> None:
+        """The nodes changed (parts dropped out): forget anything kept for the old ones."""
+        ...
+
+
+class ChainSolver:
+    """Plates, two-face plates and bars: each part's nodes are a chain (couplings to the next node,
+    cut between parts and grids), so the Jacobian is tridiagonal and one banded solve serves all."""
+
+    def net(self, nodes: Nodes, Kc: FloatArray) -> FloatArray:
+        flow = np.zeros(nodes.N)  # from node j + 1 into node j (zero across part and grid ends)
+        flow[:-1] = nodes.cond[:-1] * (Kc[1:] - Kc[:-1])
+        net = flow.copy()
+        net[1:] -= flow[:-1]
+        return net
+
+    def solve(
+        self, nodes: Nodes, gn: FloatArray, k: FloatArray, diag: FloatArray, rhs: FloatArray
+    ) -> FloatArray:
+        gk = gn * nodes.cond  # weight * conductance to the next node
+        ab = np.zeros((3, nodes.N))
+        ab[1] = diag
+        ab[1, :-1] += gk[:-1] * k[:-1]
+        ab[1, 1:] += gk[:-1] * k[1:]
+        ab[0, 1:] = -gk[:-1] * k[1:]  # d R_j / d T_(j+1)
+        ab[2, :-1] = -gk[:-1] * k[:-1]  # d R_(j+1) / d T_j
+        return np.asarray(
+            solve_banded((1, 1), ab, rhs, overwrite_ab=True, overwrite_b=True, check_finite=False),
+            dtype=float,
+        )
+
+    def reset(self) -> None:
+        return None
+
+
+class SparseSolver:
+    """Tensor grids (blocks, short cylinders): the couplings are ``nodes.edges``; the Jacobian is solved
+    by GMRES preconditioned with an LU factorization kept from an earlier Jacobian (it changes slowly
+    from one Newton iteration and time step to the next), a fresh LU when that no longer converges
+    within ``GMRES_ITERATIONS``."""
+
+    def __init__(self) -> None:
+        self.lu: Any = None
+
+    def net(self, nodes: Nodes, Kc: FloatArray) -> FloatArray:
+        assert nodes.edges is not None
+        ei, ej, ec = nodes.edges
+        eflow = ec * (Kc[ej] - Kc[ei])  # from node ej into node ei
+        N = nodes.N
+        return np.asarray(
+            np.bincount(ei, weights=eflow, minlength=N) - np.bincount(ej, weights=eflow, minlength=N),
+            dtype=float,
+        )
+
+    def solve(
+        self, nodes: Nodes, gn: FloatArray, k: FloatArray, diag: FloatArray, rhs: FloatArray
+    ) -> FloatArray:
+        assert nodes.edges is not None
+        ei, ej, ec = nodes.edges
+        N = nodes.N
+        ge = gn[ei] * ec
+        full = (
+            diag
+            + np.bincount(ei, weights=ge * k[ei], minlength=N)
+            + np.bincount(ej, weights=ge * k[ej], minlength=N)
+        )
+        rows = np.concatenate([ei, ej, np.arange(N)])
+        cols = np.concatenate([ej, ei, np.arange(N)])
+        vals = np.concatenate([-ge * k[ej], -ge * k[ei], full])
+        J = sparse.csc_matrix((vals, (rows, cols)), shape=(N, N))
+        if self.lu is not None:
+            pre = splinalg.LinearOperator(J.shape, matvec=self.lu.solve)
+            x, info = splinalg.gmres(J, rhs, rtol=1e-5, atol=0.0, restart=GMRES_ITERATIONS, maxiter=1, M=pre)
+            if info == 0:
+                return np.asarray(x, dtype=float)
+        self.lu = splinalg.splu(J, permc_spec="MMD_AT_PLUS_A")
+        return np.asarray(self.lu.solve(rhs), dtype=float)
+
+    def reset(self) -> None:
+        self.lu = None
 
 
 @dataclass
@@ -81,15 +164,20 @@ class Solved:
 
 
 def implicit_solve(
-    nodes: Nodes, laws: Laws, guess: FloatArray, target: FloatArray, t1: FloatArray, g: FloatArray
+    nodes: Nodes,
+    laws: Laws,
+    solver: Solver,
+    guess: FloatArray,
+    target: FloatArray,
+    t1: FloatArray,
+    g: FloatArray,
 ) -> Solved:
     """Solve vol * (H(T) - target) = g * net(T, t1) for T by Newton's method.
 
     ``g`` (per part) is the step times the formula's weight: implicit Euler has target = H_n and g = h;
     the two-step formula (BDF2) has target = a H_n - b H_(n-1) and g = c h. ``net`` is the heat flow
-    into each node (conduction from its neighbours plus its share of the faces) at the end time ``t1``.
-    Plates and bars have tridiagonal Jacobians (one banded solve); blocks and short cylinders a sparse
-    one (one sparse LU per iteration, every part a separate block of it).
+    into each node (conduction from its neighbours plus its share of the faces) at the end time ``t1``;
+    ``solver`` knows how the nodes are coupled and solves each Newton system.
     """
     gn = g[nodes.part]
     T = guess.copy()
@@ -100,43 +188,9 @@ def implicit_solve(
         H, C, Kc, k = nodes.tables.lookup(nodes.base, T)
         q, dq = laws.flux(nodes, T[fn], t1)
         face_diag = np.bincount(fn, weights=-gn[fn] * dq * nodes.face_area, minlength=N)
-        if nodes.edges is None:
-            flow = np.zeros(N)  # from node j + 1 into node j (zero across part and grid ends)
-            flow[:-1] = nodes.cond[:-1] * (Kc[1:] - Kc[:-1])
-            net = flow.copy()
-            net[1:] -= flow[:-1]
-            net += np.bincount(fn, weights=q * nodes.face_area, minlength=N)
-            R = nodes.vol * (H - target) - gn * net
-            gk = gn * nodes.cond  # weight * conductance to the next node
-            ab = np.zeros((3, N))
-            ab[1] = nodes.vol * C + face_diag
-            ab[1, :-1] += gk[:-1] * k[:-1]
-            ab[1, 1:] += gk[:-1] * k[1:]
-            ab[0, 1:] = -gk[:-1] * k[1:]  # d R_j / d T_(j+1)
-            ab[2, :-1] = -gk[:-1] * k[:-1]  # d R_(j+1) / d T_j
-            delta = solve_banded((1, 1), ab, -R, overwrite_ab=True, overwrite_b=True, check_finite=False)
-        else:
-            ei, ej, ec = nodes.edges
-            eflow = ec * (Kc[ej] - Kc[ei])  # from node ej into node ei
-            net = np.asarray(
-                np.bincount(ei, weights=eflow, minlength=N)
-                - np.bincount(ej, weights=eflow, minlength=N)
-                + np.bincount(fn, weights=q * nodes.face_area, minlength=N),
-                dtype=float,
-            )
-            R = nodes.vol * (H - target) - gn * net
-            ge = gn[ei] * ec
-            diag = (
-                nodes.vol * C
-                + face_diag
-                + np.bincount(ei, weights=ge * k[ei], minlength=N)
-                + np.bincount(ej, weights=ge * k[ej], minlength=N)
-            )
-            rows = np.concatenate([ei, ej, np.arange(N)])
-            cols = np.concatenate([ej, ei, np.arange(N)])
-            vals = np.concatenate([-ge * k[ej], -ge * k[ei], diag])
-            J = sparse.csc_matrix((vals, (rows, cols)), shape=(N, N))
-            delta = _sparse_solve(nodes, J, -R)
+        net = solver.net(nodes, Kc) + np.bincount(fn, weights=q * nodes.face_area, minlength=N)
+        R = nodes.vol * (H - target) - gn * net
+        delta = solver.solve(nodes, gn, k, nodes.vol * C + face_diag, -R)
         T = T + delta
         ok = nodes.per_part_max(np.abs(delta)) < NEWTON_TOL_K
         if ok.all():
@@ -168,7 +222,13 @@ MILNE = 0.4
 
 
 def march(
-    nodes: Nodes, laws: Laws, T0: FloatArray, offsets: FloatArray, step_k: float, first_dt: FloatArray
+    nodes: Nodes,
+    laws: Laws,
+    solver: Solver,
+    T0: FloatArray,
+    offsets: FloatArray,
+    step_k: float,
+    first_dt: FloatArray,
 ) -> MarchResult:
     """March every part through one step from node temperatures ``T0``, reporting at ``offsets`` (s).
 
@@ -207,9 +267,9 @@ def march(
     Q_f, Q_c = np.zeros(P), np.zeros(P)  # last step's heat in, for the BDF2 energy recursion
     while todo.any():
         hh = np.where(todo, h, 0.0)
-        a = implicit_solve(nodes, laws, T0, H0, hh, hh)
-        b1 = implicit_solve(nodes, laws, 0.5 * (T0 + a.T), H0, 0.5 * hh, 0.5 * hh)
-        b2 = implicit_solve(nodes, laws, a.T, b1.H, hh, 0.5 * hh)
+        a = implicit_solve(nodes, laws, solver, T0, H0, hh, hh)
+        b1 = implicit_solve(nodes, laws, solver, 0.5 * (T0 + a.T), H0, 0.5 * hh, 0.5 * hh)
+        b2 = implicit_solve(nodes, laws, solver, a.T, b1.H, hh, 0.5 * hh)
         e = nodes.per_part_max(np.abs(b2.T - a.T))
         solved = a.ok & b1.ok & b2.ok
         fine = solved & ((e <= step_k) | (hh <= hmin)) & todo
@@ -246,6 +306,7 @@ def march(
         if active.sum() < COMPACT * active.size:
             # drop the parts that are done: their end temperatures are final
             nodes, kept = nodes.subset(active)
+            solver.reset()
             T_end[node_ids[~kept]] = T[~kept]
             node_ids = node_ids[kept]
             T, T_prev, H, H_prev, dTdt = T[kept], T_prev[kept], H[kept], H_prev[kept], dTdt[kept]
@@ -277,7 +338,7 @@ def march(
         s = hh[part]
         pred = T + s * dTdt + (s * s) * (T_prev - T + hp * dTdt) / (hp * hp)
         target = a2[part] * H - b2c[part] * H_prev
-        sol = implicit_solve(nodes, laws, pred, target, t + hh, c2 * hh)
+        sol = implicit_solve(nodes, laws, solver, pred, target, t + hh, c2 * hh)
         e = MILNE * nodes.per_part_max(np.abs(sol.T - pred))
         good = sol.ok & ((e <= step_k) | (hh <= hmin)) & active
         _guard(active & ~sol.ok & (hh <= hmin))

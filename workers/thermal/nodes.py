@@ -14,15 +14,15 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any, Literal
 
 import numpy as np
 from numpy.typing import NDArray
 
-from workers.thermal.frozen import KELVIN, SIGMA, enthalpy
+from workers.thermal.constants import KELVIN, SIGMA
+from workers.thermal.layout import Layout
+from workers.thermal.properties import integral
 from workers.thermal.spec import Face, FloatArray, Material
 
-Kind = Literal["plate", "plate2", "bar"]
 IntArray = NDArray[np.intp]
 
 GRADING = 0.8  # share of the node spacing removed at the exchanging faces (0 = uniform)
@@ -30,10 +30,10 @@ TABLE_STEP_K = 0.5  # spacing of the property tables
 TABLE_RANGE_C = (-275.0, 2500.0)  # beyond, the (flat-ended) curves are extended exactly
 
 
-def node_xi(kind: Kind, intervals: int) -> FloatArray:
-    """Dimensionless node positions on [0, 1], graded towards the exchanging face(s)."""
+def node_xi(axis: Layout, intervals: int) -> FloatArray:
+    """Dimensionless node positions on [0, 1] of a 1-D axis, graded towards the exchanging face(s)."""
     s = np.linspace(0.0, 1.0, intervals + 1)
-    if kind == "plate2":
+    if axis == Layout.PLATE2:
         xi = s - GRADING * np.sin(2.0 * np.pi * s) / (2.0 * np.pi)
     else:
         xi = s + GRADING * np.sin(np.pi * s) / np.pi
@@ -41,10 +41,10 @@ def node_xi(kind: Kind, intervals: int) -> FloatArray:
     return np.asarray(xi, dtype=float)
 
 
-def _axis(kind: Kind, length: float, xi: FloatArray) -> tuple[FloatArray, FloatArray, float, float]:
+def _axis(axis: Layout, length: float, xi: FloatArray) -> tuple[FloatArray, FloatArray, float, float]:
     """Volumes, conductances (to the next node), outer face area and section volume of one grid."""
     mid = np.concatenate([[0.0], 0.5 * (xi[1:] + xi[:-1]), [1.0]])
-    if kind == "bar":
+    if axis == Layout.BAR:
         vol = 0.5 * (mid[1:] ** 2 - mid[:-1] ** 2) * length**2
         cond = mid[1:-1] / np.diff(xi)
         return vol, cond, length, 0.5 * length**2
@@ -69,9 +69,9 @@ class Tables:
             rows.append(
                 np.stack(
                     [
-                        m.density * enthalpy(m.specific_heat, self.temps),
+                        m.density * integral(m.specific_heat, self.temps),
                         m.density * m.specific_heat(self.temps),
-                        enthalpy(m.conductivity, self.temps),
+                        integral(m.conductivity, self.temps),
                         m.conductivity(self.temps),
                     ]
                 )
@@ -96,8 +96,8 @@ class Tables:
 class PartGrid:
     """One part as the march sees it."""
 
-    kind: Kind
-    length: float  # half thickness, full thickness (plate2) or radius, m
+    layout: Layout  # PLATE, PLATE2 or BAR
+    length: float  # half thickness, full thickness (PLATE2) or radius, m
     material: int  # index into the materials given to ``Nodes``
 
 
@@ -114,17 +114,17 @@ class Nodes:
         self.second = np.full((2, self.P), -1, dtype=np.intp)
         self.total = np.full(self.P, np.nan)
         # a two-face plate's grid spans its whole thickness: twice the intervals of a half thickness
-        self.intervals: dict[Kind, int] = {"plate": intervals, "bar": intervals, "plate2": 2 * intervals}
+        self.intervals = {Layout.PLATE: intervals, Layout.BAR: intervals, Layout.PLATE2: 2 * intervals}
         self.xi = {k: node_xi(k, n) for k, n in self.intervals.items()}
-        self.kinds = [pg.kind for pg in parts]
+        self.layouts = [pg.layout for pg in parts]
         start = 0
         self.starts = np.full(self.P, -1, dtype=np.intp)
         for p, pg in enumerate(parts):
             self.starts[p] = start
-            full = self.intervals[pg.kind]
+            full = self.intervals[pg.layout]
             for g, n_int in enumerate((full, full // 2)):
-                xi = self.xi[pg.kind][:: 1 if g == 0 else 2]
-                v, c, area, total = _axis(pg.kind, pg.length, xi)
+                xi = self.xi[pg.layout][:: 1 if g == 0 else 2]
+                v, c, area, total = _axis(pg.layout, pg.length, xi)
                 n = xi.size
                 vol.append(v)
                 cond.append(np.append(c, 0.0))
@@ -134,7 +134,7 @@ class Nodes:
                 last = start + n_int
                 if g == 0:
                     self.total[p] = total
-                if pg.kind == "plate2":
+                if pg.layout == Layout.PLATE2:
                     self.core[g, p], self.surface[g, p], self.second[g, p] = start + n_int // 2, start, last
                     ends = [(start, 0), (last, 1)]
                 else:
@@ -161,7 +161,6 @@ class Nodes:
         self.two_faces = bool((self.face_law == 1).any())
         self.edges: tuple[IntArray, IntArray, FloatArray] | None = None  # multi-axis parts only
         self.corner: IntArray | None = None
-        self.factor: Any = None  # sparse LU kept between solves (multi-axis parts)
         _check_filled(self)
 
     def subset(self, keep: NDArray[np.bool_]) -> tuple[Nodes, NDArray[np.bool_]]:
@@ -175,7 +174,7 @@ class Nodes:
         new.N = int(node_keep.sum())
         new.tables = self.tables
         new.intervals, new.xi = self.intervals, self.xi
-        new.kinds = [k for k, kept in zip(self.kinds, keep, strict=True) if kept]
+        new.layouts = [k for k, kept in zip(self.layouts, keep, strict=True) if kept]
         new.two_faces = self.two_faces
         for name in ("vol", "cond", "base", "fine"):
             setattr(new, name, getattr(self, name)[node_keep])
@@ -190,7 +189,7 @@ class Nodes:
         new.second = np.where(second >= 0, node_no[np.maximum(second, 0)], -1)
         new.total = self.total[keep]
         new.starts = node_no[self.starts[keep]]
-        new.edges, new.corner, new.factor = None, None, None
+        new.edges, new.corner = None, None
         if self.corner is not None:
             new.corner = node_no[self.corner[:, keep]]
         if self.edges is not None:
@@ -210,7 +209,7 @@ class Nodes:
         return np.asarray(np.maximum.reduceat(v, self.starts), dtype=float)
 
     def fill(self, profiles: Sequence[FloatArray]) -> FloatArray:
-        """Flat node temperatures from each part's profile on the fine nodes of its kind."""
+        """Flat node temperatures from each part's profile on the fine nodes of its layout."""
         if len(profiles) != self.P:
             raise ValueError(f"{len(profiles)} profiles for {self.P} parts")
         T = np.concatenate([np.concatenate([fine, fine[::2]]) for fine in profiles])
@@ -219,10 +218,10 @@ class Nodes:
         return T
 
     def fine_profile(self, T: FloatArray, parts: slice) -> FloatArray:
-        """Fine-grid temperatures (p, n) of the parts ``parts``, which share a kind."""
-        kinds = set(self.kinds[parts])
-        assert len(kinds) == 1
-        n = self.xi[kinds.pop()].size
+        """Fine-grid temperatures (p, n) of the parts ``parts``, which share a layout."""
+        layouts = set(self.layouts[parts])
+        assert len(layouts) == 1
+        n = self.xi[layouts.pop()].size
         idx = self.starts[parts, None] + np.arange(n)[None, :]
         return np.asarray(T[idx], dtype=float)
 
@@ -232,7 +231,7 @@ class SolidGrid:
     """One block or short cylinder as the march sees it: its axes (a plate axis or a bar's radius),
     their lengths (half sizes, radius), its material, and the xi of its reported points."""
 
-    axes: tuple[Kind, ...]
+    axes: tuple[Layout, ...]  # PLATE or BAR each
     lengths: tuple[float, ...]
     material: int
     surface: tuple[float, ...]
@@ -247,7 +246,7 @@ class Solid(Nodes):
         self.P = len(parts)
         self.tables = Tables(materials)
         self.intervals, self.xi = {}, {}  # per part here, see SolidGrid
-        self.kinds = ["plate"] * self.P  # not used for profiles: solids never hand one to a series
+        self.layouts = [Layout.PLATE] * self.P  # not used for profiles: solids never hand one over
         vol, part, base, fine, ei, ej, ec = [], [], [], [], [], [], []
         face_node, face_part, face_area, face_fine = [], [], [], []
         self.core = np.full((2, self.P), -1, dtype=np.intp)
@@ -309,7 +308,6 @@ class Solid(Nodes):
         self.face_fine = np.concatenate(face_fine)
         self.two_faces = False
         self.edges = (np.concatenate(ei), np.concatenate(ej), np.concatenate(ec))
-        self.factor = None
         _check_filled(self)
 
 

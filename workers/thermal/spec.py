@@ -8,14 +8,14 @@ W/m^2/K.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
 from numpy.typing import NDArray
 
 FloatArray = NDArray[np.float64]
-ShapeKind = Literal["plate", "bar", "block", "cylinder"]
+ShapeName = Literal["plate", "bar", "block", "cylinder"]  # the batch file's shapes
 
 
 @dataclass(frozen=True)
@@ -59,7 +59,7 @@ class Shape:
     directions: edge effects are left out, which is conservative for the core.
     """
 
-    kind: ShapeKind
+    kind: ShapeName
     half_sizes_m: tuple[float, ...]
 
 
@@ -129,13 +129,12 @@ class Tolerance:
 class Trace:
     """Computed temperatures of one part at the batch's common sample times.
 
-        ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
-        last sample of the earlier step. ``bound_k`` is the truncation bound of the series at each sample, or
-    for a marched step (see ``march``) the grid estimate plus the sum of the local
-    time-error estimates since the step began.
-        ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
-        faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and short
-        cylinders, ``second_surface_c`` for plates in a schedule with a second face.
+    ``step_index[i]`` is the schedule step sample ``i`` belongs to; a step boundary appears once, as the
+    last sample of the earlier step. ``bound_k`` is the error bound at each sample: the truncation bound
+    of a series step, or the error estimate of a marched step (see ``line`` and ``solid``).
+    ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
+    faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and
+    short cylinders, ``second_surface_c`` for plates in a schedule with a second face.
     """
 
     time_s: FloatArray
@@ -149,4 +148,3 @@ class Trace:
     corner_c: FloatArray | None = None
     second_surface_c: FloatArray | None = None
     substeps: int = 0  # series steps plus march time steps taken for this part
-    extra: dict[str, float] = field(default_factory=dict)

@@ -18,6 +18,7 @@ import httpx
 import typer
 import yaml
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table
 
 from models.settings import Settings, SettingsError, load_settings
@@ -39,7 +40,7 @@ SAFETY = (
 
 
 def _fail(message: str, code: int) -> NoReturn:
-    err.print(f"[red]error:[/red] {message}", highlight=False)
+    err.print(f"[red]error:[/red] {escape(message)}", highlight=False)
     raise typer.Exit(code)
 
 
@@ -58,6 +59,18 @@ def _prepare_database(settings: Settings) -> None:
         _fail(str(exc), 3)
 
 
+def _check_broker(settings: Settings) -> None:
+    """With a broker configured, its transport must load here and now (a missing package is named)."""
+    if settings.broker_url is None:
+        return
+    from workers.celery_app import BrokerSetupError, check_transport
+
+    try:
+        check_transport(settings)
+    except BrokerSetupError as exc:
+        _fail(str(exc), 2)
+
+
 # -- processes -----------------------------------------------------------------------------------------
 
 
@@ -72,6 +85,7 @@ def serve(
     from scheduler.api import create_app
 
     settings = _settings()
+    _check_broker(settings)
     _prepare_database(settings)
     mode = (
         f"Celery workers via {settings.broker_url}" if settings.broker_url else "in-process jobs (no broker)"
@@ -88,6 +102,7 @@ def worker(
     settings = _settings()
     if settings.broker_url is None:
         _fail("SOAKLINE_BROKER_URL is not set; a worker needs a broker such as redis://127.0.0.1:6379/0", 2)
+    _check_broker(settings)
     _prepare_database(settings)
     from workers.celery_app import app
 

@@ -29,9 +29,11 @@ from workers.runner import backoff_s, execute_job, is_transient
 
 __all__ = [
     "TASK_NAME",
+    "BrokerSetupError",
     "CeleryDispatcher",
     "app",
     "celery_config",
+    "check_transport",
     "configure",
     "publish",
     "queue_depth",
@@ -86,8 +88,30 @@ app = Celery("soakline")
 app.add_defaults(lambda: celery_config(get_settings()))
 
 
+class BrokerSetupError(RuntimeError):
+    """The broker's transport cannot be loaded in this installation (a missing package)."""
+
+
+def check_transport(settings: Settings) -> None:
+    """Load the broker's transport now, so that a missing package stops the process at start-up with a
+    message, instead of failing each publish later (kombu imports its transport on first use)."""
+    from kombu.transport import resolve_transport
+
+    if settings.broker_url is None:
+        return
+    scheme = settings.broker_url.split("://", 1)[0]
+    try:
+        resolve_transport(scheme)
+    except ImportError as exc:
+        raise BrokerSetupError(
+            f"the {scheme}:// broker transport cannot be loaded ({type(exc).__name__}: {exc}); "
+            "reinstall soakline with its dependencies (`pip install -e .` brings celery[redis])"
+        ) from None
+
+
 def configure(settings: Settings) -> None:
     """Point this process's app at ``settings`` instead of the environment (API built from settings)."""
+    check_transport(settings)
     wanted = celery_config(settings)
     if all(app.conf.get(key) == value for key, value in wanted.items()):
         return
@@ -123,7 +147,12 @@ def run_job(self: Task[Any, Any], job_id: int) -> str:
 
 
 def publish(job_ids: Sequence[int], settings: Settings | None = None) -> list[int]:
-    """Send one message per job id; returns the ids that could not be sent (broker unreachable)."""
+    """Send one message per job id; returns the ids that could not be sent.
+
+    Never raises: the jobs are committed already, and whatever stops a message (the broker down, a
+    refused connection, anything else) leaves them to the sweeper, which sends them once the broker
+    answers; ``GET /health`` says the broker is down meanwhile.
+    """
     ids = list(job_ids)
     settings = settings or get_settings()
     sent = 0
@@ -133,8 +162,13 @@ def publish(job_ids: Sequence[int], settings: Settings | None = None) -> list[in
             for job_id in ids:
                 run_job.apply_async((job_id,), queue=settings.queue, producer=producer)
                 sent += 1
-    except (kombu.exceptions.OperationalError, redis.exceptions.RedisError, OSError) as exc:
-        log.warning("broker unreachable (%s): %d job(s) left for the sweeper", exc, len(ids) - sent)
+    except Exception as exc:
+        log.warning(
+            "broker unreachable (%s: %s): %d job(s) left for the sweeper",
+            type(exc).__name__,
+            exc,
+            len(ids) - sent,
+        )
         return ids[sent:]
     return []
 
@@ -183,6 +217,10 @@ def _prepare_store(**_: Any) -> None:
             "SOAKLINE_BROKER_URL is not set: a Celery worker needs a broker "
             "(e.g. redis://127.0.0.1:6379/0). Without one, `soakline serve` runs jobs itself."
         )
+    try:
+        check_transport(settings)
+    except BrokerSetupError as exc:
+        raise SystemExit(str(exc)) from None
     wait_for_database(settings, log=log.warning)
     migrate(settings)
 

@@ -6,6 +6,7 @@ then are the jobs handed to the queue (``dispatch``), so a worker never sees an 
 
 from __future__ import annotations
 
+import logging
 from collections import defaultdict
 from collections.abc import Callable, Mapping, Sequence
 from datetime import timedelta
@@ -66,6 +67,8 @@ __all__ = [
     "suggest",
 ]
 
+log = logging.getLogger(__name__)
+
 Dispatch = Callable[[list[int]], object]  # a workers.dispatch.Dispatcher, or any sink of job ids
 
 
@@ -119,6 +122,16 @@ def _create(
     return batch, [job.id for job in jobs]
 
 
+def _hand_on(dispatch: Dispatch, job_ids: list[int]) -> None:
+    """Queue committed jobs. A failure here never fails the request: the batch is stored, its jobs stay
+    queued in the database and the sweeper sends them once the broker answers (``/health`` says it is
+    down meanwhile), so the client gets its 202 and never a reason to submit a duplicate."""
+    try:
+        dispatch(job_ids)
+    except Exception as exc:
+        log.warning("could not queue %d job(s) (%s); the sweeper will", len(job_ids), type(exc).__name__)
+
+
 def submit(
     session: Session, settings: Settings, doc: Mapping[str, Any], who: Principal, dispatch: Dispatch
 ) -> Batch:
@@ -126,7 +139,7 @@ def submit(
     spec = validate(doc)
     batch, job_ids = _create(session, settings, doc, spec, who)
     session.commit()
-    dispatch(job_ids)
+    _hand_on(dispatch, job_ids)
     return batch
 
 
@@ -155,7 +168,7 @@ def rerun(
         raise InvalidInput("the batch file is invalid", problems) from None
     batch, job_ids = _create(session, settings, parent.spec, spec, who, merged, parent.id)
     session.commit()
-    dispatch(job_ids)
+    _hand_on(dispatch, job_ids)
     return batch
 
 

@@ -111,6 +111,34 @@ def test_redis_restart_mid_batch(
     assert_complete_exactly_once(settings, batch_id, parts)
 
 
+def test_submit_while_the_broker_is_down_answers_202_and_the_sweeper_sends_it(
+    pg_settings: Settings, own_redis: RedisServer, queue_name: str, tokens: dict[str, str], start_worker: Any
+) -> None:
+    """The documented choice: the batch is committed, the client gets 202 (never a 500 that invites a
+    duplicate), /health says the broker is down, and the API's sweeper sends the jobs once it is back."""
+    settings = pg_settings.model_copy(
+        update={"broker_url": f"redis://127.0.0.1:{own_redis.port}/0", "queue": queue_name}
+    )
+    own_redis.stop()
+    with TestClient(create_app(settings)) as api:
+        started = time.monotonic()
+        created = api.post("/batches", json=batch_doc(4), headers=auth(tokens["planner"]))
+        took = time.monotonic() - started
+        assert created.status_code == 202, created.text
+        assert took < 15, f"a submit with the broker down took {took:.1f} s"
+        batch_id = created.json()["id"]
+        health = api.get("/health")
+        assert health.status_code == 503
+        assert health.json()["broker"].startswith("unreachable") and health.json()["database"] == "ok"
+        counts = store_counts(settings, batch_id)
+        assert counts["status"] == "queued" and counts["jobs_not_done"] == 4
+        own_redis.start()
+        start_worker(settings)
+        wait_for(lambda: store_counts(settings, batch_id)["status"] == "done", 120, "the batch after Redis")
+        assert api.get("/health").status_code == 200
+    assert_complete_exactly_once(settings, batch_id, 4)
+
+
 def test_database_outage_mid_batch(
     pg_settings: Settings, queue_name: str, redis_ok: None, tokens: dict[str, str], start_worker: Any
 ) -> None:

@@ -53,15 +53,32 @@ class Table:
         return v0 + (v1 - v0) * (temp_c - t0) / (t1 - t0)
 
 
+ELEMENTS = ("C", "Mn", "Si", "Ni", "Cr", "Mo", "Cu", "V", "B")
+
+
+@dataclass(frozen=True)
+class CompositionData:
+    """A steel's chemistry in mass % by element (``ELEMENTS``) and its ASTM grain size, each with its
+    source."""
+
+    values: Mapping[str, float]
+    sources: Mapping[str, str]
+    grain_size: float
+    grain_source: str
+
+
 @dataclass(frozen=True)
 class MaterialData:
-    """A steel's density, conductivity and specific heat against temperature."""
+    """A steel's density, conductivity and specific heat against temperature, and its nominal
+    composition when the phase estimates apply to it."""
 
     name: str
     description: str
     density: Table  # kg/m^3
     conductivity: Table  # W/m/K
     specific_heat: Table  # J/kg/K
+    composition: CompositionData | None = None
+    austenitic: bool = False  # no transformation on cooling (austenitic stainless)
 
 
 @dataclass(frozen=True)
@@ -125,6 +142,23 @@ def _table(raw: object, kind: units.Kind, sources: Mapping[str, str], where: str
     return Table(tuple(temps), tuple(values), kind.si_unit, tuple(row_sources))
 
 
+def _composition(raw: object, sources: Mapping[str, str], where: str) -> CompositionData | None:
+    if raw is None:
+        return None
+    if not isinstance(raw, dict) or set(raw) != {*ELEMENTS, "grain_size"}:
+        raise CatalogError(f"{where}: needs grain_size and every one of {', '.join(ELEMENTS)}")
+    values: dict[str, float] = {}
+    found: dict[str, str] = {}
+    for key, row in raw.items():
+        ok = isinstance(row, list) and len(row) == 2 and isinstance(row[0], int | float) and row[0] >= 0
+        if not ok:
+            raise CatalogError(f"{where}.{key}: expected [value >= 0, source key]")
+        values[key] = float(row[0])
+        found[key] = _source(sources, row[1], f"{where}.{key}")
+    grain = values.pop("grain_size")
+    return CompositionData(values, found, grain, found.pop("grain_size"))
+
+
 def _text(raw: Mapping[str, Any], key: str) -> str:
     return " ".join(str(raw.get(key, "")).split())
 
@@ -147,6 +181,8 @@ def materials() -> Mapping[str, MaterialData]:
             specific_heat=_table(
                 raw.get("specific_heat"), units.SPECIFIC_HEAT, sources, f"{where}.specific_heat"
             ),
+            composition=_composition(raw.get("composition"), sources, f"{where}.composition"),
+            austenitic=bool(raw.get("austenitic", False)),
         )
     return found
 

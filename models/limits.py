@@ -16,3 +16,7 @@ MAX_HTC_W_M2K = 1.0e6
 MAX_TEXT = 200
 MAX_TABLE_ROWS = 500
 MAX_FILE_BYTES = 20 * 1024 * 1024
+MAX_CARBON_PCT = 2.1  # above it the alloy is a cast iron, not a steel (from memory: the Fe-C diagram)
+MAX_ELEMENT_PCT = 30.0
+MAX_ALLOY_PCT = 50.0  # all elements together
+GRAIN_SIZE_RANGE = (-1.0, 14.0)  # ASTM E112 numbers 00 (written -1) to 14 (from memory)

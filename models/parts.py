@@ -9,6 +9,7 @@ from pydantic import BeforeValidator, Field
 
 from models import catalog, limits, units
 from models.base import RuleProblem, SpecModel, as_raw
+from models.composition import CompositionSpec
 from models.fields import (
     ConductivityValue,
     DensityValue,
@@ -70,6 +71,25 @@ def _targets_limit(value: object) -> object:
     return value
 
 
+def _composition_rules(raw: Mapping[str, Any]) -> list[RuleProblem]:
+    name = raw.get("material")
+    if raw.get("composition") is None or not isinstance(name, str | int) or isinstance(name, bool):
+        return []
+    try:
+        data = catalog.get_material(str(name))
+    except ValueError:
+        return []  # the material field reports it
+    if data.austenitic:
+        return [
+            (
+                ("composition",),
+                f"{data.name} is an austenitic steel: it does not transform on quenching, so the phase "
+                "and hardness estimates do not apply; remove composition",
+            )
+        ]
+    return []
+
+
 class PartSpec(SpecModel):
     """One part of the batch. Sizes by shape: plate thickness; bar diameter; block thickness, width and
     length; cylinder diameter and length."""
@@ -82,6 +102,7 @@ class PartSpec(SpecModel):
     diameter: LengthText | None = None
     material: Annotated[str | InlineMaterialSpec, BeforeValidator(_inline_or_name)]
     initial: TemperatureText
+    composition: CompositionSpec | None = None
     targets: Annotated[list[TargetSpec], BeforeValidator(_targets_limit)] = Field(default_factory=list)
 
     @classmethod
@@ -98,6 +119,7 @@ class PartSpec(SpecModel):
             for f in SIZE_FIELDS
             if f not in needed and raw.get(f) is not None
         ]
+        problems += _composition_rules(raw)
         targets = raw.get("targets")
         if shape not in _WITH_CORNER and isinstance(targets, list):
             problems += [
@@ -150,6 +172,15 @@ class PartSpec(SpecModel):
         ]
         prefix = "dia " if self.shape in ("bar", "cylinder") else ""
         return prefix + f" {times} ".join(sizes)
+
+    @property
+    def composition_data(self) -> catalog.CompositionData | None:
+        """The chemistry the phase estimates use: the file's heat over the grade's nominal values, the
+        nominal values alone, or None (no estimate: a steel without composition, or austenitic)."""
+        nominal = self.material_data.composition
+        if self.composition is not None:
+            return self.composition.resolved(nominal)
+        return nominal
 
     @property
     def material_data(self) -> catalog.MaterialData:

@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 
 from models import catalog
+from models.chemistry_warnings import composition_warnings
 from models.errors import Problem
 from models.loading import format_path
 from models.spec import BatchSpec, TargetKind, TargetSpec
@@ -106,7 +107,8 @@ def _difference(target: TargetSpec, spec: BatchSpec) -> list[str]:
 
 
 def target_warnings(spec: BatchSpec) -> list[Problem]:
-    """Every target of ``spec`` that looks physically wrong, at its field path, in file order."""
+    """Every target of ``spec`` that looks physically wrong, at its field path, in file order, then every
+    part composition outside the range of a method its estimate uses (``chemistry_warnings``)."""
     bounds = catalog.bounds()
     found: list[Problem] = []
     for i, part in enumerate(spec.parts):
@@ -120,4 +122,4 @@ def target_warnings(spec: BatchSpec) -> list[Problem]:
             else:
                 texts = _temperature(target, spec, bounds)
             found += [Problem(path, text) for text in texts]
-    return found
+    return found + composition_warnings(spec)

@@ -17,6 +17,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import NDArray
 
 from workers.thermal.phases.composition import Composition
 from workers.thermal.phases.latent import split_latent
@@ -40,7 +41,7 @@ class Steel:
 class Coupling:
     """Phases and latent heat of every node of a march (``steel[i]`` the steel of node i)."""
 
-    def __init__(self, steels: Sequence[Steel], steel: Sequence[int] | FloatArray) -> None:
+    def __init__(self, steels: Sequence[Steel], steel: Sequence[int] | NDArray[np.intp]) -> None:
         self.index = np.asarray(steel, dtype=np.intp)
         self.transformer = Transformer.for_nodes([s.composition for s in steels], self.index)
         self.grid = np.arange(TABLE_C[0], TABLE_C[1] + TABLE_STEP_K / 2, TABLE_STEP_K)
@@ -68,7 +69,8 @@ class Coupling:
 
     def enthalpy(self, temp_c: FloatArray, state: PhaseState) -> FloatArray:
         """rho (h_base(T) + a L), J/m^3 per node."""
-        return self.rho * (self.base_enthalpy(temp_c) + state.austenite * self.latent)
+        h = self.base_enthalpy(temp_c) + state.austenite * self.latent
+        return np.asarray(self.rho * h, dtype=float)
 
     def settle(
         self, state: PhaseState, temp_c: FloatArray, dt_s: float | FloatArray

@@ -26,6 +26,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
+from numpy.typing import NDArray
 
 from workers.thermal.phases.composition import Composition
 from workers.thermal.phases.critical import critical_temperatures
@@ -68,7 +69,7 @@ class Transformer:
     kin: dict[str, FloatArray]
 
     @staticmethod
-    def for_nodes(steels: Sequence[Composition], steel: Sequence[int] | FloatArray) -> Transformer:
+    def for_nodes(steels: Sequence[Composition], steel: Sequence[int] | NDArray[np.intp]) -> Transformer:
         idx = np.asarray(steel, dtype=np.intp)
         crits = [critical_temperatures(c) for c in steels]
         kins = [Kinetics.of(c) for c in steels]

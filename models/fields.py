@@ -9,12 +9,14 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import unicodedata
 from collections.abc import Callable
 from typing import Annotated
 
 from pydantic import BeforeValidator
 
 from models import catalog, limits, units
+from models.text import part_id_problem
 
 Bound = tuple[float, str]  # SI value and how to show it
 
@@ -73,6 +75,27 @@ def check_text(value: object) -> str:
         raise ValueError("must not be empty")
     if len(text) > limits.MAX_TEXT:
         raise ValueError(f"must be at most {limits.MAX_TEXT} characters, got {len(text)}")
+    return text
+
+
+def check_part_id(value: object) -> str:
+    """A part id: text from a safe set (it appears in page addresses, API paths and file names).
+
+    Numbers are refused rather than turned into text: YAML reads ``0101`` as 65 and JSON ``1e21`` as a
+    float, so the id stored would not be the one written.
+    """
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        raise ValueError(f"expected text, got the number {value!r}; write the id in quotes, e.g. 'P-101'")
+    if not isinstance(value, str):
+        raise ValueError(f"expected text such as 'P-101', got {value!r}")
+    text = unicodedata.normalize("NFC", value).strip()
+    if not text:
+        raise ValueError("must not be empty")
+    if len(text) > limits.MAX_TEXT:
+        raise ValueError(f"must be at most {limits.MAX_TEXT} characters, got {len(text)}")
+    problem = part_id_problem(text)
+    if problem is not None:
+        raise ValueError(problem)
     return text
 
 
@@ -158,4 +181,5 @@ SpecificHeatValue = Annotated[str | PropertyTable, BeforeValidator(property_chec
 Emissivity = Annotated[float, BeforeValidator(check_emissivity)]
 PositiveNumber = Annotated[float, BeforeValidator(check_positive_number)]
 Text = Annotated[str, BeforeValidator(check_text)]
+PartId = Annotated[str, BeforeValidator(check_part_id)]
 MediumName = Annotated[str, BeforeValidator(check_medium_name)]

@@ -24,6 +24,7 @@ from models.parts import InlineMaterialSpec, PartSpec
 from models.spec import BatchSpec
 from models.steps import LowerFaceSpec, StepSpec
 from models.targets import TargetSpec
+from models.text import value_problems
 
 _MODELS: tuple[type[BaseModel], ...] = (
     BatchSpec,
@@ -39,7 +40,8 @@ def format_path(loc: tuple[str | int, ...]) -> str:
     """``("parts", 2, "thickness")`` -> ``"parts[2].thickness"``."""
     out = ""
     for item in loc:
-        out += f"[{item}]" if isinstance(item, int) else (f".{item}" if out else str(item))
+        name = str(item) or "''"  # an empty field name must still show where it is
+        out += f"[{item}]" if isinstance(item, int) else (f".{name}" if out else name)
     return out
 
 
@@ -93,12 +95,31 @@ def _index(loc: tuple[object, ...]) -> int:
     return loc[1] if len(loc) > 1 and isinstance(loc[1], int) else -1
 
 
-def parse_batch(doc: object) -> BatchSpec:
-    """Validate a parsed document (mapping from YAML, JSON or an API body) as a batch."""
+def _size_problems(doc: Mapping[str, Any], max_parts: int) -> list[Problem]:
+    """Counts checked before anything else, so that an oversized file is refused at once."""
+    out = []
+    for key, what, most in (("parts", "part", max_parts), ("schedule", "step", limits.MAX_STEPS)):
+        items = doc.get(key)
+        if isinstance(items, list) and len(items) > most:
+            out.append(Problem(key, f"a batch holds at most {most} {what}s, got {len(items)}"))
+    return out
+
+
+def parse_batch(doc: object, *, max_parts: int = limits.MAX_PARTS) -> BatchSpec:
+    """Validate a parsed document (mapping from YAML, JSON or an API body) as a batch.
+
+    Before the fields are checked: the part and step counts (``max_parts`` may be lower than the
+    product limit, a service setting), then every string and number for what cannot be stored
+    (``models.text``: NUL and control characters, lone surrogates, NaN and infinities).
+    """
     if not isinstance(doc, Mapping):
         raise SpecError.single(
             f"the top level must be a mapping with batch, schedule and parts; got {_type_name(doc)}"
         )
+    if sized := _size_problems(doc, min(max_parts, limits.MAX_PARTS)):
+        raise SpecError(sized)
+    if raw := value_problems(doc):
+        raise SpecError([Problem(format_path(loc), message) for loc, message in raw])
     try:
         return BatchSpec.model_validate(doc)
     except ValidationError as exc:

@@ -14,10 +14,10 @@ from models.fields import (
     ConductivityValue,
     DensityValue,
     LengthText,
+    PartId,
     PropertyTable,
     SpecificHeatValue,
     TemperatureText,
-    Text,
     check_material_name,
 )
 from models.targets import TargetSpec
@@ -94,7 +94,7 @@ class PartSpec(SpecModel):
     """One part of the batch. Sizes by shape: plate thickness; bar diameter; block thickness, width and
     length; cylinder diameter and length."""
 
-    id: Text
+    id: PartId
     shape: ShapeName
     thickness: LengthText | None = None
     width: LengthText | None = None

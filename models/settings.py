@@ -16,6 +16,8 @@ from pydantic_settings import BaseSettings, SettingsConfigDict
 from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ArgumentError
 
+from models import limits
+
 ENV_PREFIX = "SOAKLINE_"
 _DATABASE_BACKENDS = {"sqlite", "postgresql"}
 _BROKER_SCHEMES = {"redis", "rediss", "amqp", "pyamqp", "memory"}
@@ -49,6 +51,10 @@ class Settings(BaseSettings):
     retry_backoff_max_s: int = Field(default=60, ge=1)
     inprocess_threads: int = Field(default=1, ge=1, le=64)
     db_wait_s: float = Field(default=60.0, ge=0)
+    # Requests larger than this are refused (413) before they are read further or validated.
+    max_body_bytes: int = Field(default=8 * 1024 * 1024, ge=1024)
+    # Parts per submitted batch, checked before any part is validated (at most the product limit).
+    max_parts: int = Field(default=limits.MAX_PARTS, ge=1, le=limits.MAX_PARTS)
     api_url: str = "http://127.0.0.1:8000"
     token: SecretStr | None = None
 

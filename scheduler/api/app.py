@@ -17,6 +17,7 @@ from models.store import migrate, wait_for_database
 from scheduler import web
 from scheduler.api import batches, flags, health
 from scheduler.api.errors import install_error_handlers
+from scheduler.api.guard import RequestGuard
 from workers.background import InProcessRunner, Sweeper
 from workers.dispatch import Dispatcher
 
@@ -82,6 +83,7 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     app.state.runner = None
     app.state.dispatch = _dispatcher(settings)
     install_error_handlers(app, pages=("/ui/", web.error_page))
+    app.add_middleware(RequestGuard, max_body_bytes=settings.max_body_bytes)
     app.include_router(batches.router)
     app.include_router(flags.router)
     app.include_router(health.router)

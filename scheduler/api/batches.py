@@ -4,11 +4,11 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Query, Request
+from fastapi import APIRouter, Body, Path, Query, Request
 
 from models.tables import BatchStatus
 from scheduler.api import service
-from scheduler.api.deps import CurrentToken, Planner, SessionDep, SettingsDep
+from scheduler.api.deps import MAX_ID, BatchId, CurrentToken, Offset, Planner, SessionDep, SettingsDep
 from scheduler.api.schemas import (
     ERROR_RESPONSES,
     BatchCreated,
@@ -56,27 +56,27 @@ def list_batches(
     _: CurrentToken,
     status: BatchStatus | None = None,
     limit: Annotated[int, Query(ge=1, le=500)] = 50,
-    offset: Annotated[int, Query(ge=0)] = 0,
+    offset: Offset = 0,
 ) -> BatchPage:
     """Batches, newest first, optionally only those with one status."""
     return service.list_batches(session, status, limit, offset)
 
 
 @router.get("/{batch_id}", response_model=BatchPublic)
-def get_batch(batch_id: int, session: SessionDep, _: CurrentToken) -> BatchPublic:
+def get_batch(batch_id: BatchId, session: SessionDep, _: CurrentToken) -> BatchPublic:
     """A batch's status and, per part, whether it is flagged and its flags."""
     return service.get_batch(session, batch_id)
 
 
 @router.get("/{batch_id}/parts/{part_id}")
-def get_part(batch_id: int, part_id: str, session: SessionDep, _: CurrentToken) -> dict[str, Any]:
+def get_part(batch_id: BatchId, part_id: str, session: SessionDep, _: CurrentToken) -> dict[str, Any]:
     """One part's result with its trace (time_s, core_c, surface_c, ambient_c, ...); 409 until computed."""
     return dict(service.part_result(session, batch_id, part_id))
 
 
 @router.post("/{batch_id}/rerun", status_code=202, response_model=BatchCreated)
 def rerun_batch(
-    batch_id: int,
+    batch_id: BatchId,
     body: RerunCreate,
     request: Request,
     session: SessionDep,
@@ -89,14 +89,19 @@ def rerun_batch(
 
 
 @router.get("/{batch_id}/compare/{other_id}", response_model=ComparePublic)
-def compare_batches(batch_id: int, other_id: int, session: SessionDep, _: CurrentToken) -> ComparePublic:
+def compare_batches(
+    batch_id: BatchId,
+    other_id: Annotated[int, Path(ge=1, le=MAX_ID, description="The batch to compare with.")],
+    session: SessionDep,
+    _: CurrentToken,
+) -> ComparePublic:
     """Per part, the flags of this batch (before) against another (after), e.g. a rerun."""
     return service.compare(session, batch_id, other_id)
 
 
 @router.get("/{batch_id}/suggest", response_model=SuggestPublic)
 def suggest_duration(
-    batch_id: int,
+    batch_id: BatchId,
     session: SessionDep,
     settings: SettingsDep,
     _: CurrentToken,

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator
 from typing import Annotated
 
-from fastapi import Depends, Request
+from fastapi import Depends, Path, Query, Request
 from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
 from sqlalchemy.orm import Session
 
@@ -16,7 +16,11 @@ from scheduler.api.auth import Principal, lookup_token
 from scheduler.api.errors import Forbidden, Unauthorized
 
 __all__ = [
+    "MAX_ID",
+    "BatchId",
     "CurrentToken",
+    "FlagId",
+    "Offset",
     "Planner",
     "Reviewer",
     "SessionDep",
@@ -25,6 +29,12 @@ __all__ = [
     "has_role",
     "require_role",
 ]
+
+# Ids and offsets are PostgreSQL integers: a larger number is a 422 naming the field, not a database error.
+MAX_ID = 2**31 - 1
+BatchId = Annotated[int, Path(ge=1, le=MAX_ID, description="A batch id.")]
+FlagId = Annotated[int, Path(ge=1, le=MAX_ID, description="A flag id.")]
+Offset = Annotated[int, Query(ge=0, le=MAX_ID, description="How many items to skip.")]
 
 _bearer = HTTPBearer(auto_error=False, description="An API token from `soakline token create`.")
 

@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
+from models.limits import MAX_STEPS, MAX_TEXT
 from models.tables import BatchStatus, Decision, FlagStatus, JobStatus
+from models.text import text_problem
 
 __all__ = [
     "ERROR_RESPONSES",
@@ -30,6 +32,22 @@ __all__ = [
     "RerunCreate",
     "SuggestPublic",
 ]
+
+
+def _storable(single_line: bool) -> AfterValidator:
+    def check(value: str) -> str:
+        problem = text_problem(value, single_line=single_line)
+        if problem is not None:
+            raise ValueError(problem)
+        return value
+
+    return AfterValidator(check)
+
+
+# Text a client sends that is stored or compared in the database: no NUL, control characters or lone
+# surrogates (see models.text); a line has no line breaks either.
+StoredText = Annotated[str, _storable(single_line=False)]
+StoredLine = Annotated[str, Field(max_length=MAX_TEXT), _storable(single_line=True)]
 
 
 class ProblemPublic(BaseModel):
@@ -99,7 +117,7 @@ class DispositionCreate(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     decision: Decision
-    comment: str = Field(min_length=1, max_length=4000)
+    comment: StoredText = Field(min_length=1, max_length=4000)
 
 
 class DispositionPublic(_Out):
@@ -139,8 +157,11 @@ class FlagPage(_Out):
 class RerunCreate(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
-    durations: dict[str, str] = Field(
-        min_length=1, description='New step durations, e.g. {"soak": "4 h"}.', examples=[{"soak": "4 h"}]
+    durations: dict[StoredLine, StoredLine] = Field(
+        min_length=1,
+        max_length=MAX_STEPS,
+        description='New step durations, e.g. {"soak": "4 h"}.',
+        examples=[{"soak": "4 h"}],
     )
 
 

@@ -16,6 +16,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session, selectinload
 
 from models import BatchSpec, SpecError, parse_batch, with_durations
+from models.limits import MAX_PARTS
 from models.resolved import dump_resolved, stored_spec
 from models.results import CheckBody, PartResult
 from models.settings import Settings
@@ -76,10 +77,12 @@ def _spec_problems(exc: SpecError) -> list[tuple[str, str]]:
     return [(p.path, p.message) for p in exc.problems]
 
 
-def validate(doc: Any, durations: Mapping[str, str] | None = None) -> BatchSpec:
+def validate(
+    doc: Any, durations: Mapping[str, str] | None = None, *, max_parts: int = MAX_PARTS
+) -> BatchSpec:
     """Parse a batch file (and apply rerun durations); InvalidInput naming every bad field."""
     try:
-        spec = parse_batch(doc)
+        spec = parse_batch(doc, max_parts=max_parts)
         if durations:
             spec = with_durations(spec, dict(durations))
     except SpecError as exc:
@@ -136,7 +139,7 @@ def submit(
     session: Session, settings: Settings, doc: Mapping[str, Any], who: Principal, dispatch: Dispatch
 ) -> Batch:
     """Validate, store (one transaction), then queue one job per part."""
-    spec = validate(doc)
+    spec = validate(doc, max_parts=settings.max_parts)
     batch, job_ids = _create(session, settings, doc, spec, who)
     session.commit()
     _hand_on(dispatch, job_ids)

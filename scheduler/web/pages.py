@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from pathlib import Path
 from typing import Annotated, Any
-from urllib.parse import urlsplit
+from urllib.parse import quote, urlsplit
 
 from fastapi import APIRouter, Form, Query, Request
 from fastapi.responses import FileResponse, HTMLResponse, PlainTextResponse, RedirectResponse, Response
@@ -20,9 +20,10 @@ from fastapi.templating import Jinja2Templates
 from models import BatchSpec, parse_time
 from models.errors import SpecError
 from models.tables import Batch, BatchStatus, Decision, Role
+from models.text import text_problem
 from scheduler.api import service
 from scheduler.api.auth import Principal, lookup_token
-from scheduler.api.deps import SessionDep, SettingsDep, has_role
+from scheduler.api.deps import BatchId, FlagId, Offset, SessionDep, SettingsDep, has_role
 from scheduler.api.errors import DomainError, InvalidInput, ResultNotReady
 from scheduler.web import views
 from scheduler.web.session import WebPlanner, WebReviewer, WebUser, clear_session, start_session
@@ -140,7 +141,7 @@ def set_units(
 
 @router.get("/batches", response_class=HTMLResponse)
 def batches(
-    request: Request, session: SessionDep, user: WebUser, status: str | None = None, offset: int = 0
+    request: Request, session: SessionDep, user: WebUser, status: str | None = None, offset: Offset = 0
 ) -> HTMLResponse:
     chosen = BatchStatus(status) if status in {s.value for s in BatchStatus} else None
     page = service.list_batches(session, chosen, 50, max(0, offset))
@@ -157,7 +158,7 @@ def batches(
 
 
 @router.get("/batches/{batch_id}", response_class=HTMLResponse)
-def batch_page(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
+def batch_page(request: Request, batch_id: BatchId, session: SessionDep, user: WebUser) -> HTMLResponse:
     batch, spec = service.get_batch_record(session, batch_id)
     units = units_from(request)
     return _page(
@@ -176,7 +177,7 @@ def batch_page(request: Request, batch_id: int, session: SessionDep, user: WebUs
 @router.get("/batches/{batch_id}/suggest", response_class=HTMLResponse)
 def suggest_page(
     request: Request,
-    batch_id: int,
+    batch_id: BatchId,
     session: SessionDep,
     settings: SettingsDep,
     user: WebUser,
@@ -187,7 +188,7 @@ def suggest_page(
 
 
 @router.get("/batches/{batch_id}/report", response_class=HTMLResponse)
-def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) -> HTMLResponse:
+def report(request: Request, batch_id: BatchId, session: SessionDep, user: WebUser) -> HTMLResponse:
     batch, spec = service.get_batch_record(session, batch_id)
     units = units_from(request)
     flags = service.list_flags(session, batch_id, None, ALL, 0).items
@@ -213,7 +214,7 @@ def report(request: Request, batch_id: int, session: SessionDep, user: WebUser) 
 
 @router.get("/batches/{batch_id}/parts/{part_id}", response_class=HTMLResponse)
 def part_page(
-    request: Request, batch_id: int, part_id: str, session: SessionDep, user: WebUser
+    request: Request, batch_id: BatchId, part_id: str, session: SessionDep, user: WebUser
 ) -> HTMLResponse:
     batch, spec = service.get_batch_record(session, batch_id)
     try:
@@ -235,33 +236,42 @@ def part_page(
 
 
 @router.get("/batches/{batch_id}/parts/{part_id}/trace.csv")
-def part_csv(request: Request, batch_id: int, part_id: str, session: SessionDep, user: WebUser) -> Response:
+def part_csv(
+    request: Request, batch_id: BatchId, part_id: str, session: SessionDep, user: WebUser
+) -> Response:
     try:
         body = service.part_result(session, batch_id, part_id)
     except DomainError as exc:
         return PlainTextResponse(exc.message, status_code=exc.status_code)
-    name = f"batch{batch_id}-{part_id}".replace('"', "")
     return PlainTextResponse(
         views.trace_csv(body, units_from(request)),
         media_type="text/csv",
-        headers={"Content-Disposition": f'attachment; filename="{name}.csv"'},
+        headers={"Content-Disposition": _attachment(f"batch{batch_id}-{part_id}.csv")},
     )
+
+
+def _attachment(name: str) -> str:
+    """A download's file name in a header (Latin-1 only): an ASCII stand-in and the UTF-8 name."""
+    plain = "".join(c if c.isascii() and (c.isalnum() or c in "-_.") else "_" for c in name)
+    return f"attachment; filename=\"{plain}\"; filename*=UTF-8''{quote(name, safe='')}"
 
 
 @router.post("/flags/{flag_id}/disposition")
 def disposition(
     request: Request,
-    flag_id: int,
+    flag_id: FlagId,
     session: SessionDep,
     user: WebReviewer,
     decision: Annotated[str, Form()] = "",
     comment: Annotated[str, Form()] = "",
 ) -> Response:
     flag = service.get_flag(session, flag_id)
-    back = f"/ui/batches/{flag.batch}/parts/{flag.part}"
+    back = f"/ui/batches/{flag.batch}/parts/{quote(flag.part, safe='')}"
     if decision not in {d.value for d in Decision} or not comment.strip():
         message = "Choose a decision and write a comment (what was decided and why)."
         return _page(request, "error.html", user, 422, message=message, back=back)
+    if (problem := text_problem(comment)) is not None:
+        return _page(request, "error.html", user, 422, message=f"The comment {problem}.", back=back)
     service.add_disposition(session, flag_id, Decision(decision), comment.strip()[:4000], user)
     return RedirectResponse(back + "#history", status_code=303)
 
@@ -277,7 +287,7 @@ def _rerun_context(batch: Batch, spec: BatchSpec, values: dict[str, str] | None 
 @router.get("/batches/{batch_id}/rerun", response_class=HTMLResponse)
 def rerun_form(
     request: Request,
-    batch_id: int,
+    batch_id: BatchId,
     session: SessionDep,
     user: WebUser,
     step: str | None = None,
@@ -290,7 +300,7 @@ def rerun_form(
 
 @router.post("/batches/{batch_id}/rerun", response_class=HTMLResponse)
 async def rerun(
-    request: Request, batch_id: int, session: SessionDep, settings: SettingsDep, user: WebPlanner
+    request: Request, batch_id: BatchId, session: SessionDep, settings: SettingsDep, user: WebPlanner
 ) -> Response:
     batch, spec = service.get_batch_record(session, batch_id)
     form = await request.form()
@@ -318,8 +328,8 @@ async def rerun(
 @router.get("/batches/{batch_id}/compare/{other_id}", response_class=HTMLResponse)
 def compare(
     request: Request,
-    batch_id: int,
-    other_id: int,
+    batch_id: BatchId,
+    other_id: BatchId,
     session: SessionDep,
     user: WebUser,
     part: str | None = None,

@@ -6,6 +6,8 @@ serve or work. Sessions come from :func:`session_factory`; a caller commits or t
 
 from __future__ import annotations
 
+import logging
+import threading
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -14,14 +16,17 @@ from importlib import resources
 from typing import Any
 
 from sqlalchemy import Engine, create_engine, event, text
-from sqlalchemy.exc import DBAPIError, OperationalError
+from sqlalchemy.exc import DBAPIError, InterfaceError, OperationalError
+from sqlalchemy.exc import TimeoutError as PoolTimeout
 from sqlalchemy.orm import Session, sessionmaker
 
 from models.settings import Settings, get_settings
 
 __all__ = [
     "DatabaseUnavailable",
+    "OutageLog",
     "engine_for",
+    "is_outage",
     "migrate",
     "session_factory",
     "session_scope",
@@ -31,6 +36,49 @@ __all__ = [
 
 class DatabaseUnavailable(RuntimeError):
     """The database did not answer within the allowed wait."""
+
+
+def is_outage(exc: BaseException) -> bool:
+    """An error that says the database is not answering (down, restarting, unreachable, connection
+    dropped, pool exhausted), as opposed to a bad statement: a later try can get past it."""
+    if isinstance(exc, DBAPIError) and exc.connection_invalidated:
+        return True
+    return isinstance(exc, OperationalError | InterfaceError | PoolTimeout | DatabaseUnavailable)
+
+
+def _first_line(exc: BaseException) -> str:
+    orig = getattr(exc, "orig", None) or exc
+    text = str(orig).strip().splitlines()
+    return f"{type(orig).__name__}: {text[0] if text else ''}"[:300]
+
+
+class OutageLog:
+    """Says when the database stops answering and when it is back: one line each per outage, instead of
+    a traceback for every request or pass that fails meanwhile. Thread-safe."""
+
+    def __init__(self, logger: logging.Logger, who: str) -> None:
+        self.logger, self.who = logger, who
+        self._since: float | None = None
+        self._lock = threading.Lock()
+
+    def failed(self, exc: BaseException) -> None:
+        with self._lock:
+            if self._since is not None:
+                return
+            self._since = time.monotonic()
+        self.logger.warning("%s: the database is not answering (%s)", self.who, _first_line(exc))
+
+    def recovered(self) -> None:
+        with self._lock:
+            since, self._since = self._since, None
+        if since is not None:
+            self.logger.warning(
+                "%s: the database answers again after %.0f s", self.who, time.monotonic() - since
+            )
+
+    @property
+    def down(self) -> bool:
+        return self._since is not None
 
 
 def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:

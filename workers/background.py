@@ -19,7 +19,7 @@ from datetime import timedelta
 
 from models import repository as jobs_repo
 from models.settings import Settings
-from models.store import session_factory, session_scope
+from models.store import OutageLog, session_factory, session_scope
 from models.tables import JobStatus, utcnow
 from workers.dispatch import Dispatcher, QueueDispatcher
 from workers.runner import backoff_s, execute_job, is_transient
@@ -74,13 +74,19 @@ class Sweeper(_Loop):
         super().__init__("soakline-sweeper")
         self.settings = settings
         self.dispatch = dispatch
+        self.outage = OutageLog(log, "sweeper")
 
     def run(self) -> None:
         while not self._stop_event.wait(self.settings.sweep_interval_s):
             try:
                 sweep_once(self.settings, self.dispatch)
             except Exception as exc:  # the database may be down; try again next round
-                log.warning("sweeper pass failed: %s", exc)
+                if is_transient(exc):
+                    self.outage.failed(exc)
+                else:
+                    log.warning("sweeper pass failed: %s: %s", type(exc).__name__, exc)
+            else:
+                self.outage.recovered()
 
 
 def claim_next_job(settings: Settings) -> int | None:

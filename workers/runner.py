@@ -24,7 +24,6 @@ from collections.abc import Sequence
 from enum import StrEnum
 
 from sqlalchemy import select
-from sqlalchemy.exc import DBAPIError, InterfaceError, OperationalError
 from sqlalchemy.orm import Session
 
 from models import BatchSpec
@@ -32,18 +31,13 @@ from models import repository as jobs_repo
 from models.resolved import stored_spec
 from models.results import PartResult
 from models.settings import Settings, get_settings
-from models.store import session_factory, session_scope
+from models.store import is_outage, session_factory, session_scope
 from models.tables import Batch, Job, JobStatus
 from workers import jobs
 
 __all__ = ["Outcome", "backoff_s", "compute", "execute_job", "is_transient", "load_batch_spec"]
 
 log = logging.getLogger(__name__)
-
-TRANSIENT_DB_ERRORS: tuple[type[BaseException], ...] = (
-    OperationalError,  # database went away, connection refused, server restarting
-    InterfaceError,  # connection closed under us
-)
 
 
 class Outcome(StrEnum):
@@ -61,9 +55,7 @@ def backoff_s(retries: int, cap_s: float) -> float:
 
 def is_transient(exc: BaseException) -> bool:
     """A database error that a later try can get past (the server restarting, a dropped connection)."""
-    if isinstance(exc, DBAPIError) and exc.connection_invalidated:
-        return True
-    return isinstance(exc, TRANSIENT_DB_ERRORS)
+    return is_outage(exc)
 
 
 # -- the stored batch ---------------------------------------------------------------------------------

@@ -11,9 +11,10 @@ from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
 from fastapi import FastAPI
+from sqlalchemy import event
 
 from models.settings import Settings, get_settings
-from models.store import migrate, wait_for_database
+from models.store import OutageLog, engine_for, migrate, wait_for_database
 from scheduler import web
 from scheduler.api import batches, flags, health
 from scheduler.api.errors import install_error_handlers
@@ -80,6 +81,9 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
         lifespan=lifespan,
     )
     app.state.settings = settings
+    app.state.outage = outage = OutageLog(log, "api")
+    # A new connection after an outage means the database is back: say so once.
+    event.listen(engine_for(settings.database_url), "connect", lambda *_: outage.recovered())
     app.state.runner = None
     app.state.dispatch = _dispatcher(settings)
     install_error_handlers(app, pages=("/ui/", web.error_page))

@@ -13,8 +13,11 @@ from typing import Any
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse, Response
+from sqlalchemy.exc import DBAPIError
+from sqlalchemy.exc import TimeoutError as PoolTimeout
 
 from models import format_path
+from models.store import DatabaseUnavailable, is_outage
 
 __all__ = [
     "BatchNotFound",
@@ -24,9 +27,13 @@ __all__ = [
     "InvalidInput",
     "PartNotFound",
     "ResultNotReady",
+    "ServiceUnavailable",
     "Unauthorized",
     "install_error_handlers",
 ]
+
+
+RETRY_AFTER_S = 5
 
 
 class DomainError(Exception):
@@ -82,6 +89,16 @@ class ResultNotReady(DomainError):
         self.batch_id, self.part_id, self.status = batch_id, part_id, status
 
 
+class ServiceUnavailable(DomainError):
+    """The database is not answering: try again after ``retry_after_s`` (sent as Retry-After)."""
+
+    status_code = 503
+
+    def __init__(self, message: str, retry_after_s: int = RETRY_AFTER_S) -> None:
+        super().__init__(message)
+        self.retry_after_s = retry_after_s
+
+
 class InvalidInput(DomainError):
     """The request or batch file is invalid; ``problems`` lists every (path, message)."""
 
@@ -104,15 +121,44 @@ def _request_path(loc: tuple[Any, ...]) -> str:
 
 
 PageRenderer = Callable[[Request, DomainError], Response]
+DATABASE_DOWN = "the database is not answering; try again shortly"
 
 
 def _domain(pages: tuple[str, PageRenderer] | None) -> Callable[[Request, Exception], Awaitable[Response]]:
     async def handle(request: Request, exc: Exception) -> Response:
         assert isinstance(exc, DomainError)
+        headers = _headers(exc)
         if pages is not None and request.url.path.startswith(pages[0]):
-            return pages[1](request, exc)
-        headers = {"WWW-Authenticate": "Bearer"} if isinstance(exc, Unauthorized) else None
+            page = pages[1](request, exc)
+            page.headers.update(headers)
+            return page
         return JSONResponse(exc.body(), status_code=exc.status_code, headers=headers)
+
+    return handle
+
+
+def _headers(exc: DomainError) -> dict[str, str]:
+    if isinstance(exc, Unauthorized):
+        return {"WWW-Authenticate": "Bearer"}
+    if isinstance(exc, ServiceUnavailable):
+        return {"Retry-After": str(exc.retry_after_s)}
+    return {}
+
+
+def _database(
+    domain: Callable[[Request, Exception], Awaitable[Response]],
+) -> Callable[[Request, Exception], Awaitable[Response]]:
+    """A database that is not answering becomes a 503 with Retry-After and a one-line body; the outage is
+    logged once (``app.state.outage``), not as a traceback per request. Other database errors are bugs
+    and go on to the last-resort handler (scheduler.api.guard)."""
+
+    async def handle(request: Request, exc: Exception) -> Response:
+        if not is_outage(exc):
+            raise exc
+        outage = getattr(request.app.state, "outage", None)
+        if outage is not None:
+            outage.failed(exc)
+        return await domain(request, ServiceUnavailable(DATABASE_DOWN))
 
     return handle
 
@@ -128,5 +174,8 @@ def install_error_handlers(app: FastAPI, pages: tuple[str, PageRenderer] | None 
 
     ``pages`` is (path prefix, renderer): a domain error on those paths becomes a page instead of JSON.
     """
-    app.add_exception_handler(DomainError, _domain(pages))
+    domain = _domain(pages)
+    app.add_exception_handler(DomainError, domain)
     app.add_exception_handler(RequestValidationError, _validation)
+    for kind in (DBAPIError, PoolTimeout, DatabaseUnavailable):
+        app.add_exception_handler(kind, _database(domain))

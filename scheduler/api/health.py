@@ -8,6 +8,7 @@ from sqlalchemy import text
 
 from models.store import engine_for
 from scheduler.api.deps import SettingsDep
+from scheduler.api.errors import RETRY_AFTER_S
 from scheduler.api.schemas import HealthPublic
 
 router = APIRouter(tags=["health"])
@@ -42,4 +43,5 @@ def health(settings: SettingsDep) -> JSONResponse:
         broker=broker,
         mode="in-process" if settings.broker_url is None else "celery",
     )
-    return JSONResponse(body.model_dump(), status_code=200 if ok else 503)
+    headers = None if ok else {"Retry-After": str(RETRY_AFTER_S)}
+    return JSONResponse(body.model_dump(), status_code=200 if ok else 503, headers=headers)

@@ -10,7 +10,7 @@ closed twice. The functions take a session and never commit: the caller owns the
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from datetime import datetime, timedelta
 from typing import Any, NamedTuple, cast
 
@@ -33,6 +33,7 @@ __all__ = [
     "mark_unsent",
     "open_batch_ids",
     "release",
+    "renew",
     "requeue_stale",
     "save_result",
 ]
@@ -54,29 +55,37 @@ def _hit(session: Session, stmt: Any) -> bool:
 # -- taking jobs --------------------------------------------------------------------------------------
 
 
-def claim(
-    session: Session, job_id: int, settings: Settings, *, count_attempt: bool, claimed: bool
-) -> tuple[Job | None, bool]:
-    """Lock the job row and mark it running (or failed past its attempts); True when the caller runs it.
+def _lease_end(settings: Settings) -> datetime:
+    return utcnow() + timedelta(seconds=settings.lease_s)
+
+
+def claim(session: Session, job_id: int, settings: Settings, *, owner: str) -> tuple[Job | None, bool]:
+    """Lock the job row and take it for ``owner`` (or fail it past its attempts); True when ``owner``
+    runs it.
 
     A job whose result is stored is already ``done``: result and status are written together. A job
-    another worker is running (a sibling it took, see :func:`claim_siblings`) is left to it until its
-    deadline; after that the sweeper queues it again. ``claimed`` says the caller already marked it
-    running (:func:`claim_next`). The batch goes from queued to running with its first job.
+    held by another owner whose lease has not run out (a live worker, or a sibling it took, see
+    :func:`claim_siblings`) is left to it; once the lease runs out the sweeper queues it again. The
+    same owner takes its own job back (a retry of the same task, or a runner that marked it running
+    with :func:`claim_next`). Every take counts an attempt; a take whose transaction rolled back did not
+    happen. The batch goes from queued to running with its first job.
     """
     job = session.get(Job, job_id, with_for_update=True)
     if job is None or job.status in _FINISHED:
         return job, False
-    if job.status == JobStatus.RUNNING and not claimed and job.deadline > utcnow():
+    if job.status == JobStatus.RUNNING and job.owner != owner and job.deadline > utcnow():
         return job, False
-    if count_attempt:
-        job.attempts += 1
+    job.attempts += 1
     if job.attempts > settings.max_attempts:
         job.status = JobStatus.FAILED
-        job.error = f"gave up after {settings.max_attempts} attempts (worker lost or timed out each time)"
+        job.error = (
+            f"gave up after {settings.max_attempts} attempts (each ended without a result: the worker "
+            "was lost or the database failed)"
+        )
         return job, False
     job.status = JobStatus.RUNNING
-    job.deadline = utcnow() + timedelta(seconds=settings.job_timeout_s)
+    job.owner = owner
+    job.deadline = _lease_end(settings)
     _hit(
         session,
         update(Batch)
@@ -86,16 +95,23 @@ def claim(
     return job, True
 
 
-def claim_siblings(session: Session, job: Job, settings: Settings) -> list[Job]:
+def claim_siblings(
+    session: Session, job: Job, settings: Settings, cost_s: Mapping[str, float] | None = None
+) -> list[Job]:
     """Take more queued parts of the same batch, to compute them in one vectorised engine call.
 
     The engine is much faster per part on a group than part by part, so a worker takes up to
-    ``SOAKLINE_GROUP_PARTS`` jobs at once -- but never more than half of what is still queued, so
-    that the other workers get a share of a small batch. Their own messages, when they arrive, find
-    them running or done and are skipped. Rows are locked with SKIP LOCKED: two workers never take
-    the same sibling.
+    ``SOAKLINE_GROUP_PARTS`` jobs at once, and no more than ``SOAKLINE_GROUP_SECONDS`` of estimated
+    computing (``cost_s`` per part id; the first job counts too), and never more than half of what is
+    still queued, so that the other workers get a share of a small batch. Their own messages, when they
+    arrive, find them held or done and are skipped. Rows are locked with SKIP LOCKED: two workers never
+    take the same sibling.
     """
     if settings.group_parts <= 1:
+        return []
+    costs = cost_s or {}
+    budget = settings.group_seconds - costs.get(job.part_id, 0.0)
+    if budget <= 0:
         return []
     queued = session.scalar(
         select(func.count())
@@ -114,14 +130,20 @@ def claim_siblings(session: Session, job: Job, settings: Settings) -> list[Job]:
             .with_for_update(skip_locked=True)
         )
     )
+    taken = []
     for row in rows:
+        budget -= costs.get(row.part_id, 0.0)
+        if budget < 0:
+            break
         row.status = JobStatus.RUNNING
         row.attempts += 1
+        row.owner = job.owner
         row.deadline = job.deadline
-    return rows
+        taken.append(row)
+    return taken
 
 
-def claim_next(session: Session, settings: Settings, tries: int = 5) -> int | None:
+def claim_next(session: Session, settings: Settings, owner: str, tries: int = 5) -> int | None:
     """Take the oldest queued job (guarded update) for an in-process runner; None when there is none."""
     for _ in range(tries):
         job_id = session.scalar(
@@ -129,24 +151,39 @@ def claim_next(session: Session, settings: Settings, tries: int = 5) -> int | No
         )
         if job_id is None:
             return None
-        deadline = utcnow() + timedelta(seconds=settings.job_timeout_s)
         if _hit(
             session,
             update(Job)
             .where(Job.id == job_id, Job.status == JobStatus.QUEUED)
-            .values(status=JobStatus.RUNNING.value, deadline=deadline),
+            .values(status=JobStatus.RUNNING.value, owner=owner, deadline=_lease_end(settings)),
         ):
             return job_id
     return None
 
 
-def release(session: Session, job_id: int) -> None:
-    """Put a running job back in line at once (a transient error), instead of at its deadline."""
+def renew(session: Session, job_ids: Sequence[int], owner: str, settings: Settings) -> int:
+    """Push out the lease of the running jobs ``owner`` holds (its heartbeat); how many it still holds."""
+    result = cast(
+        CursorResult[Any],
+        session.execute(
+            _guarded(
+                update(Job)
+                .where(Job.id.in_(list(job_ids)), Job.status == JobStatus.RUNNING, Job.owner == owner)
+                .values(deadline=_lease_end(settings))
+            )
+        ),
+    )
+    return int(result.rowcount)
+
+
+def release(session: Session, job_ids: Sequence[int], owner: str) -> None:
+    """Put running jobs that ``owner`` holds back in line at once (a transient error), instead of at the
+    end of their lease."""
     _hit(
         session,
         update(Job)
-        .where(Job.id == job_id, Job.status == JobStatus.RUNNING)
-        .values(status=JobStatus.QUEUED.value),
+        .where(Job.id.in_(list(job_ids)), Job.status == JobStatus.RUNNING, Job.owner == owner)
+        .values(status=JobStatus.QUEUED.value, owner=None, deadline=utcnow()),
     )
 
 
@@ -290,7 +327,7 @@ def requeue_stale(session: Session, job_ids: Sequence[int], now: datetime, deadl
             session,
             update(Job)
             .where(Job.id == job_id, Job.status.in_(_UNFINISHED), Job.deadline < now)
-            .values(status=JobStatus.QUEUED.value, deadline=deadline),
+            .values(status=JobStatus.QUEUED.value, owner=None, deadline=deadline),
         )
     ]
 

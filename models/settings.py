@@ -40,14 +40,20 @@ class Settings(BaseSettings):
     database_url: str = Field(default_factory=default_database_url)
     broker_url: str | None = None
     queue: str = Field(default="soakline", min_length=1, pattern=r"^[A-Za-z0-9_.:-]+$")
-    # A job that has produced no result this long after it was (re)queued is queued again.
-    job_timeout_s: float = Field(default=600.0, gt=0)
-    # Redis hands an unacknowledged message to another worker after this long; it must outlast a job.
+    # A running job stays its worker's while the worker renews this lease (a heartbeat every third of
+    # it, however long the job runs); when the lease runs out (the worker died) the job is sent again.
+    # A queued job not taken this long after it was sent is sent again once the broker queue is empty.
+    lease_s: float = Field(default=30.0, ge=3)
+    # Redis hands an unacknowledged message to another worker after this long (a lost worker's message);
+    # the lease, not this, protects running jobs: such a message finds its job held and is skipped.
     visibility_timeout_s: float = Field(default=3600.0, gt=0)
-    sweep_interval_s: float = Field(default=15.0, gt=0)
+    sweep_interval_s: float = Field(default=10.0, gt=0)
     max_attempts: int = Field(default=5, ge=1)
-    # A worker computes up to this many queued parts of a batch in one vectorised engine call.
+    # A worker computes up to this many queued parts of a batch in one vectorised engine call...
     group_parts: int = Field(default=50, ge=1, le=1000)
+    # ...and no more than about this much estimated computing time (a nonlinear block costs hundreds of
+    # plates), so that a batch of heavy parts is shared among workers and a lost worker loses little.
+    group_seconds: float = Field(default=10.0, gt=0)
     retry_backoff_max_s: int = Field(default=60, ge=1)
     inprocess_threads: int = Field(default=1, ge=1, le=64)
     db_wait_s: float = Field(default=60.0, ge=0)
@@ -87,13 +93,18 @@ class Settings(BaseSettings):
         return value.rstrip("/")
 
     @model_validator(mode="after")
-    def _visibility_outlasts_job(self) -> Self:
-        if self.visibility_timeout_s < self.job_timeout_s:
+    def _visibility_outlasts_lease(self) -> Self:
+        if self.visibility_timeout_s < self.lease_s:
             raise ValueError(
                 f"{ENV_PREFIX}VISIBILITY_TIMEOUT_S ({self.visibility_timeout_s:g}) must be at least "
-                f"{ENV_PREFIX}JOB_TIMEOUT_S ({self.job_timeout_s:g}), or Redis redelivers running jobs"
+                f"{ENV_PREFIX}LEASE_S ({self.lease_s:g}), or Redis redelivers jobs faster than leases end"
             )
         return self
+
+    @property
+    def heartbeat_s(self) -> float:
+        """How often a worker renews the lease of the jobs it runs."""
+        return self.lease_s / 3.0
 
     @property
     def sqlite_path(self) -> Path | None:

@@ -162,7 +162,8 @@ class Part(Base):
 
 
 class Job(Base):
-    """The unit of queued work: compute one part. ``deadline`` is when the sweeper queues it again."""
+    """The unit of queued work: compute one part. ``deadline`` is when the sweeper queues it again,
+    ``owner`` the execution that holds it while it runs."""
 
     __tablename__ = "jobs"
     __table_args__ = (
@@ -175,7 +176,10 @@ class Job(Base):
     part_id: Mapped[str] = mapped_column(String(200))
     status: Mapped[str] = mapped_column(String(16), default=JobStatus.QUEUED)
     attempts: Mapped[int] = mapped_column(Integer, default=0)
+    # Queued: when the sweeper sends it again if no worker took it. Running: the end of its holder's
+    # lease, pushed out by the holder's heartbeat (see models.repository).
     deadline: Mapped[datetime] = mapped_column(_tz())
+    owner: Mapped[str | None] = mapped_column(String(120))
     error: Mapped[str | None] = mapped_column(Text)
     created_at: Mapped[datetime] = mapped_column(_tz(), default=utcnow)
     updated_at: Mapped[datetime] = mapped_column(_tz(), default=utcnow, onupdate=utcnow)
@@ -245,3 +249,5 @@ class ApiToken(Base):
     role: Mapped[str] = mapped_column(String(16))
     token_sha256: Mapped[str] = mapped_column(String(64), unique=True)
     created_at: Mapped[datetime] = mapped_column(_tz(), default=utcnow)
+    expires_at: Mapped[datetime | None] = mapped_column(_tz())
+    last_used_at: Mapped[datetime | None] = mapped_column(_tz())

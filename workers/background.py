@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import logging
 import threading
+import uuid
 from collections.abc import Sequence
 from datetime import timedelta
 
@@ -45,7 +46,7 @@ def sweep_once(settings: Settings, dispatch: Dispatcher | None) -> list[int]:
     if waiting and isinstance(dispatch, QueueDispatcher) and dispatch.backlog() != 0:
         ids = [row.id for row in stale if row.status == JobStatus.RUNNING]
     with session_scope(factory) as session:
-        requeued = jobs_repo.requeue_stale(session, ids, now, now + timedelta(seconds=settings.job_timeout_s))
+        requeued = jobs_repo.requeue_stale(session, ids, now, now + timedelta(seconds=settings.lease_s))
     if requeued:
         log.warning("sweeper: %d job(s) had no result past their deadline; queued again", len(requeued))
         if dispatch is not None:
@@ -89,10 +90,10 @@ class Sweeper(_Loop):
                 self.outage.recovered()
 
 
-def claim_next_job(settings: Settings) -> int | None:
-    """Take the oldest queued job for this process; None when there is none."""
+def claim_next_job(settings: Settings, owner: str) -> int | None:
+    """Take the oldest queued job for ``owner`` in this process; None when there is none."""
     with session_scope(session_factory(settings)) as session:
-        return jobs_repo.claim_next(session, settings)
+        return jobs_repo.claim_next(session, settings, owner)
 
 
 class InProcessRunner:
@@ -123,11 +124,12 @@ class InProcessRunner:
         for thread in self._threads:
             thread.join(timeout)
 
-    def _release(self, job_id: int) -> None:
-        """Put a job that hit a transient error back in line (else the sweeper does, at its deadline)."""
+    def _release(self, job_id: int, owner: str) -> None:
+        """Put a job that hit a transient error back in line (else the sweeper does, when its lease
+        runs out). Its siblings, if it took any, come back with their lease."""
         try:
             with session_scope(session_factory(self.settings)) as session:
-                jobs_repo.release(session, job_id)
+                jobs_repo.release(session, [job_id], owner)
         except Exception as exc:
             log.warning("could not release job %s (%s); the sweeper will", job_id, type(exc).__name__)
 
@@ -135,10 +137,11 @@ class InProcessRunner:
         failures = 0
         while not self._stop_event.is_set():
             job_id = None
+            owner = f"inprocess:{uuid.uuid4().hex}"
             try:
-                job_id = claim_next_job(self.settings)
+                job_id = claim_next_job(self.settings, owner)
                 if job_id is not None:
-                    execute_job(job_id, self.settings, claimed=True)
+                    execute_job(job_id, self.settings, owner=owner)
                 failures = 0
             except Exception as exc:
                 if not is_transient(exc):
@@ -147,7 +150,7 @@ class InProcessRunner:
                     log.warning("in-process runner: %s; retrying", type(exc).__name__)
                 failures += 1
                 if job_id is not None:
-                    self._release(job_id)
+                    self._release(job_id, owner)
                 self._stop_event.wait(backoff_s(failures, self.settings.retry_backoff_max_s))
                 continue
             if job_id is None:

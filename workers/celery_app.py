@@ -131,8 +131,10 @@ def configure(settings: Settings) -> None:
 def run_job(self: Task[Any, Any], job_id: int) -> str:
     """The job id is the whole message; everything else is read from the database."""
     settings = get_settings()
+    # The task id stays the same on this task's own retries: a retry takes its job back at once.
+    owner = f"celery:{self.request.id or job_id}"
     try:
-        return str(execute_job(job_id, settings, count_attempt=self.request.retries == 0))
+        return str(execute_job(job_id, settings, owner=owner))
     except Exception as exc:
         retryable = is_transient(exc) or isinstance(exc, BROKER_ERRORS)
         if not retryable or self.request.retries >= MAX_TASK_RETRIES:

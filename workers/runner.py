@@ -3,10 +3,12 @@ call :func:`execute_job` with a job id.
 
 A job is:
 
-1. claimed: attempts counted, deadline pushed out, the batch marked running, and up to
-   ``SOAKLINE_GROUP_PARTS`` queued sibling jobs of the same batch taken along (SKIP LOCKED);
+1. claimed: attempts counted, a lease taken for this execution (its owner), the batch marked running,
+   and queued sibling jobs of the same batch taken along (SKIP LOCKED), up to ``SOAKLINE_GROUP_PARTS``
+   and about ``SOAKLINE_GROUP_SECONDS`` of estimated computing (``workers.cost``);
 2. computed: the engine on the stored batch, one vectorised call for the group (``run_batch`` on the
-   group's parts; part by part with ``run_part`` if that fails), pure: no database inside;
+   group's parts; part by part with ``run_part`` if that fails), pure: no database inside, while a
+   heartbeat thread renews the group's lease;
 3. saved: each result inserted once with its flags and its job marked done, in one transaction, so a
    duplicate delivery changes nothing;
 4. finished: the batch becomes done (or failed) by counting finished job rows in a guarded update.
@@ -31,11 +33,12 @@ from models import repository as jobs_repo
 from models.resolved import stored_spec
 from models.results import PartResult
 from models.settings import Settings, get_settings
-from models.store import is_outage, session_factory, session_scope
+from models.store import OutageLog, is_outage, session_factory, session_scope
 from models.tables import Batch, Job, JobStatus
 from workers import jobs
+from workers.cost import part_costs
 
-__all__ = ["Outcome", "backoff_s", "compute", "execute_job", "is_transient", "load_batch_spec"]
+__all__ = ["Heartbeat", "Outcome", "backoff_s", "compute", "execute_job", "is_transient", "load_batch_spec"]
 
 log = logging.getLogger(__name__)
 
@@ -140,12 +143,63 @@ def _save(
             jobs_repo.fail_job(row, error or "the engine returned no result for this part")
 
 
-def execute_job(
-    job_id: int, settings: Settings | None = None, *, count_attempt: bool = True, claimed: bool = False
-) -> Outcome:
-    """Run one job (and the sibling jobs it takes) to the end.
+class Heartbeat(threading.Thread):
+    """Renews the lease of the jobs an execution holds, every ``SOAKLINE_LEASE_S / 3``, until stopped:
+    however long a group computes, the sweeper sees its jobs held and sends none of them again. When
+    the process dies the renewals stop and the lease runs out."""
 
-    ``claimed`` says the caller already marked the job running (the in-process runner).
+    _outage = OutageLog(log, "heartbeat")
+
+    def __init__(self, settings: Settings, job_ids: Sequence[int], owner: str) -> None:
+        super().__init__(name=f"soakline-heartbeat-{owner}", daemon=True)
+        self.settings, self.job_ids, self.owner = settings, list(job_ids), owner
+        self._stopped = threading.Event()
+
+    def run(self) -> None:
+        factory = session_factory(self.settings)
+        while not self._stopped.wait(self.settings.heartbeat_s):
+            try:
+                with session_scope(factory) as session:
+                    jobs_repo.renew(session, self.job_ids, self.owner, self.settings)
+            except Exception as exc:  # the next beat tries again; the lease may run out meanwhile
+                if is_transient(exc):
+                    self._outage.failed(exc)
+                else:
+                    log.warning("heartbeat of %s failed: %s: %s", self.owner, type(exc).__name__, exc)
+            else:
+                self._outage.recovered()
+
+    def __enter__(self) -> Heartbeat:
+        self.start()
+        return self
+
+    def __exit__(self, *_: object) -> None:
+        self._stopped.set()
+        self.join(5.0)
+
+
+_costs: dict[int, tuple[BatchSpec, dict[str, float]]] = {}
+
+
+def _part_costs(spec: BatchSpec) -> dict[str, float]:
+    """Estimated engine seconds per part (``workers.cost``), kept per cached spec."""
+    with _specs_lock:
+        found = _costs.get(id(spec))
+        if found is not None and found[0] is spec:
+            return found[1]
+    costs = part_costs(spec)
+    with _specs_lock:
+        if len(_costs) >= _SPEC_CACHE_SIZE:
+            _costs.pop(next(iter(_costs)))
+        _costs[id(spec)] = (spec, costs)
+    return costs
+
+
+def execute_job(job_id: int, settings: Settings | None = None, *, owner: str) -> Outcome:
+    """Run one job (and the sibling jobs it takes) to the end, as ``owner``.
+
+    ``owner`` names this execution: a Celery task id (the same on the task's own retries, so a retry
+    takes its job back at once), or an in-process runner's claim (:func:`models.repository.claim_next`).
     """
     settings = settings or get_settings()
     factory = session_factory(settings)
@@ -153,7 +207,7 @@ def execute_job(
     error: str | None = None
     group: dict[int, str] = {}
     with session_scope(factory) as session:
-        job, mine = jobs_repo.claim(session, job_id, settings, count_attempt=count_attempt, claimed=claimed)
+        job, mine = jobs_repo.claim(session, job_id, settings, owner=owner)
         if job is None:
             return Outcome.SKIPPED
         batch_id = job.batch_id
@@ -161,7 +215,8 @@ def execute_job(
             group = {job.id: job.part_id}
             try:
                 spec = load_batch_spec(session, batch_id, settings.database_url)
-                group |= {s.id: s.part_id for s in jobs_repo.claim_siblings(session, job, settings)}
+                costs = _part_costs(spec)
+                group |= {s.id: s.part_id for s in jobs_repo.claim_siblings(session, job, settings, costs)}
             except Exception as exc:
                 if is_transient(exc):
                     raise
@@ -172,7 +227,8 @@ def execute_job(
             jobs_repo.finish_batch(session, batch_id)
         return Outcome.SKIPPED
 
-    results = compute(spec, list(group.values())) if spec is not None and error is None else {}
+    with Heartbeat(settings, list(group), owner):
+        results = compute(spec, list(group.values())) if spec is not None and error is None else {}
     with session_scope(factory) as session:
         _save(session, group, results, error)
     # Separate transaction: the count must see this job's committed row (see finish_batch).

@@ -114,7 +114,7 @@ def _create(
     )
     session.add(batch)
     session.flush()
-    deadline = utcnow() + timedelta(seconds=settings.job_timeout_s)
+    deadline = utcnow() + timedelta(seconds=settings.lease_s)
     session.add_all(Part(batch_id=batch.id, part_id=pid, position=n) for n, pid in enumerate(part_ids))
     jobs = [
         Job(batch_id=batch.id, part_id=pid, status=JobStatus.QUEUED.value, deadline=deadline)

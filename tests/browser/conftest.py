@@ -128,7 +128,7 @@ def site(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Site]:
     settings = Settings(
         database_url=f"sqlite:///{db}",
         broker_url=None,
-        job_timeout_s=60.0,
+        lease_s=60.0,
         visibility_timeout_s=120.0,
         sweep_interval_s=0.5,
         db_wait_s=5.0,

@@ -40,8 +40,9 @@ def make_settings(database_url: str, **kw: Any) -> Settings:
     base: dict[str, Any] = {
         "database_url": database_url,
         "broker_url": None,
-        # Well above a part's compute time (seconds here), or running parts would be re-queued.
-        "job_timeout_s": 20.0,
+        # Short, so that a killed worker's jobs come back quickly; the heartbeat (every 2 s) keeps the
+        # jobs of a live worker however long they take.
+        "lease_s": 6.0,
         "visibility_timeout_s": 30.0,
         "sweep_interval_s": 0.5,
         "retry_backoff_max_s": 2,
@@ -122,7 +123,7 @@ class WorkerProcess:
             SOAKLINE_DATABASE_URL=s.database_url,
             SOAKLINE_BROKER_URL=str(s.broker_url),
             SOAKLINE_QUEUE=s.queue,
-            SOAKLINE_JOB_TIMEOUT_S=str(s.job_timeout_s),
+            SOAKLINE_LEASE_S=str(s.lease_s),
             SOAKLINE_VISIBILITY_TIMEOUT_S=str(s.visibility_timeout_s),
             SOAKLINE_SWEEP_INTERVAL_S=str(s.sweep_interval_s),
             SOAKLINE_RETRY_BACKOFF_MAX_S=str(s.retry_backoff_max_s),

@@ -19,13 +19,18 @@ import workers.jobs as jobs
 
 delay = float(os.environ.get("SOAKLINE_TEST_PART_DELAY_S", "0"))
 if delay > 0:
-    real = jobs.run_part
+    real_part, real_batch = jobs.run_part, jobs.run_batch
 
     def slow_run_part(batch: Any, part_id: str) -> dict[str, Any]:
         time.sleep(delay)
-        return dict(real(batch, part_id))
+        return dict(real_part(batch, part_id))
+
+    def slow_run_batch(batch: Any) -> dict[str, Any]:  # a group: the pause for each of its parts
+        time.sleep(delay * len(batch.parts))
+        return dict(real_batch(batch))
 
     jobs.run_part = slow_run_part  # type: ignore[assignment]
+    jobs.run_batch = slow_run_batch  # type: ignore[assignment]
 
 
 def main() -> None:

@@ -5,12 +5,15 @@ from __future__ import annotations
 
 import importlib
 import threading
+import time
 from datetime import timedelta
 from typing import Any
 
 import pytest
 from sqlalchemy import select, update
+from sqlalchemy.exc import OperationalError
 
+from models import repository as jobs_repo
 from models.repository import finish_batch
 from models.settings import Settings
 from models.store import session_factory, session_scope
@@ -50,16 +53,18 @@ def test_redelivery_and_concurrent_duplicates_store_one_result(pg_settings: Sett
     batch_id, job_ids = _submit(pg_settings, 4)
     outcomes: list[str] = []
     threads = [
-        threading.Thread(target=lambda j=j: outcomes.append(execute_job(j, pg_settings)))
+        threading.Thread(
+            target=lambda j=j, k=k: outcomes.append(execute_job(j, pg_settings, owner=f"t{j}.{k}"))
+        )
         for j in job_ids
-        for _ in range(3)
+        for k in range(3)
     ]
     for t in threads:
         t.start()
     for t in threads:
         t.join()
     assert "done" in outcomes and set(outcomes) <= {"done", "skipped"}
-    assert execute_job(job_ids[0], pg_settings) == "skipped"
+    assert execute_job(job_ids[0], pg_settings, owner="late") == "skipped"
     assert_complete_exactly_once(pg_settings, batch_id, 4)
 
 
@@ -84,7 +89,7 @@ def test_a_failing_part_fails_its_job_and_the_batch_keeps_the_rest(
     monkeypatch.setattr(jobs, "run_batch", run_batch)
     batch_id, job_ids = _submit(pg_settings, 3)
     for j in job_ids:
-        execute_job(j, pg_settings)
+        execute_job(j, pg_settings, owner="test")
     counts = store_counts(pg_settings, batch_id)
     assert counts["status"] == "failed" and counts["results"] == 2
     with session_factory(pg_settings)() as session:
@@ -97,15 +102,15 @@ def test_a_job_that_keeps_dying_is_given_up(pg_settings: Settings) -> None:
     batch_id, job_ids = _submit(pg_settings, 2)
     with session_scope(session_factory(pg_settings)) as session:
         session.execute(update(Job).where(Job.id == job_ids[0]).values(attempts=pg_settings.max_attempts))
-    assert execute_job(job_ids[0], pg_settings) == "skipped"
-    assert execute_job(job_ids[1], pg_settings) == "done"
+    assert execute_job(job_ids[0], pg_settings, owner="late") == "skipped"
+    assert execute_job(job_ids[1], pg_settings, owner="test") == "done"
     counts = store_counts(pg_settings, batch_id)
     assert counts["status"] == "failed" and counts["results"] == 1
 
 
 def test_sweeper_requeues_stale_jobs_once(pg_settings: Settings) -> None:
     batch_id, job_ids = _submit(pg_settings, 3)
-    assert claim_next_job(pg_settings) == job_ids[0]
+    assert claim_next_job(pg_settings, "runner") == job_ids[0]
     past = utcnow() - timedelta(seconds=1)
     with session_scope(session_factory(pg_settings)) as session:
         session.execute(update(Job).where(Job.id.in_(job_ids[:2])).values(deadline=past))
@@ -130,7 +135,7 @@ def test_sweeper_requeues_stale_jobs_once(pg_settings: Settings) -> None:
 def test_sweeper_closes_a_batch_whose_last_finish_was_lost(pg_settings: Settings) -> None:
     batch_id, job_ids = _submit(pg_settings, 2)
     for j in job_ids:
-        execute_job(j, pg_settings)
+        execute_job(j, pg_settings, owner="test")
     with session_scope(session_factory(pg_settings)) as session:
         session.execute(update(Batch).where(Batch.id == batch_id).values(status="running"))
     assert store_counts(pg_settings, batch_id)["status"] == "running"
@@ -139,3 +144,77 @@ def test_sweeper_closes_a_batch_whose_last_finish_was_lost(pg_settings: Settings
     with session_scope(session_factory(pg_settings)) as session:
         assert finish_batch(session, batch_id) is False, "done is final: a second flip must not happen"
         assert session.scalar(select(Result.id).where(Result.batch_id == batch_id).limit(1)) is not None
+
+
+def test_a_group_longer_than_its_lease_is_not_sent_again(
+    pg_settings: Settings, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The heartbeat renews the lease of a group that computes for several leases: no sweep re-sends it
+    (it would be computed twice), and each job counts one attempt."""
+    settings = pg_settings.model_copy(update={"lease_s": 3.0})
+    jobs = importlib.import_module("workers.jobs")
+    real_batch = jobs.run_batch
+
+    def slow_batch(batch: Any) -> dict[str, Any]:
+        time.sleep(3 * settings.lease_s)
+        return dict(real_batch(batch))
+
+    monkeypatch.setattr(jobs, "run_batch", slow_batch)
+    batch_id, job_ids = _submit(settings, 4)
+    worker = threading.Thread(target=execute_job, args=(job_ids[0], settings), kwargs={"owner": "slow"})
+    worker.start()
+    resent: list[int] = []
+    while worker.is_alive():
+        resent += sweep_once(settings, lambda ids: [])
+        time.sleep(0.3)
+    worker.join()
+    held = [j for j in job_ids if j not in resent]
+    # The job the group left queued is sent again each time its own lease passes (its message may be
+    # lost); none of the three the group holds is.
+    assert set(resent) == set(job_ids[3:]), "only the job the group did not take may be sent again"
+    for j in set(resent):
+        execute_job(j, settings, owner="second")
+    counts = assert_complete_exactly_once(settings, batch_id, 4)
+    assert counts["attempts"] == 4 and len(held) == 3
+
+
+def test_a_dead_holders_lease_runs_out_and_the_job_is_sent_again(pg_settings: Settings) -> None:
+    settings = pg_settings.model_copy(update={"lease_s": 3.0})
+    batch_id, job_ids = _submit(settings, 1)
+    with session_scope(session_factory(settings)) as session:  # taken by a worker that then died
+        assert jobs_repo.claim(session, job_ids[0], settings, owner="dead")[1]
+    assert sweep_once(settings, lambda ids: []) == []
+    assert execute_job(job_ids[0], settings, owner="other") == "skipped", "the lease is still live"
+    time.sleep(settings.lease_s + 0.2)
+    sent: list[int] = []
+
+    def send(ids: Any) -> list[int]:
+        sent.extend(ids)
+        return []
+
+    assert sweep_once(settings, send) == job_ids == sent
+    assert execute_job(job_ids[0], settings, owner="other") == "done"
+    assert assert_complete_exactly_once(settings, batch_id, 1)["attempts"] == 2
+
+
+def test_a_retry_after_a_database_error_takes_its_job_back_and_counts_every_attempt(
+    pg_settings: Settings, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    runner = importlib.import_module("workers.runner")
+    real_save = runner._save
+    calls = {"n": 0}
+
+    def flaky_save(*args: Any) -> None:
+        calls["n"] += 1
+        if calls["n"] == 1:
+            raise OperationalError("INSERT INTO results", {}, Exception("server closed the connection"))
+        real_save(*args)
+
+    monkeypatch.setattr(runner, "_save", flaky_save)
+    batch_id, job_ids = _submit(pg_settings, 1)
+    with pytest.raises(OperationalError):
+        execute_job(job_ids[0], pg_settings, owner="celery:task-1")
+    # The task's retry (same task id) does not wait for the lease: it is this task's own job.
+    assert execute_job(job_ids[0], pg_settings, owner="celery:task-1") == "done"
+    counts = assert_complete_exactly_once(pg_settings, batch_id, 1)
+    assert counts["attempts"] == 2

@@ -28,10 +28,10 @@ pytestmark = pytest.mark.service
         ({"SOAKLINE_DATABASE_URL": "mysql://x@127.0.0.1/db"}, "SOAKLINE_DATABASE_URL"),
         ({"SOAKLINE_DATABASE_URL": "not a url"}, "SOAKLINE_DATABASE_URL"),
         ({"SOAKLINE_BROKER_URL": "127.0.0.1:6379"}, "SOAKLINE_BROKER_URL"),
-        ({"SOAKLINE_JOB_TIMEOUT_S": "-3"}, "SOAKLINE_JOB_TIMEOUT_S"),
+        ({"SOAKLINE_LEASE_S": "-3"}, "SOAKLINE_LEASE_S"),
         ({"SOAKLINE_MAX_ATTEMPTS": "many"}, "SOAKLINE_MAX_ATTEMPTS"),
         (
-            {"SOAKLINE_JOB_TIMEOUT_S": "100", "SOAKLINE_VISIBILITY_TIMEOUT_S": "50"},
+            {"SOAKLINE_LEASE_S": "100", "SOAKLINE_VISIBILITY_TIMEOUT_S": "50"},
             "SOAKLINE_VISIBILITY_TIMEOUT_S",
         ),
         ({"SOAKLINE_API_URL": "127.0.0.1:8000"}, "SOAKLINE_API_URL"),
@@ -187,7 +187,7 @@ def test_cli_reports_an_unreachable_api(pg_settings: Settings) -> None:
     env.update(SOAKLINE_TOKEN="sl_x", PYTHONPATH=str(ROOT), SOAKLINE_DATABASE_URL=pg_settings.database_url)
     out = _run(env, "status", "1", "--api", f"http://127.0.0.1:{free_port()}")
     assert out.returncode == 3 and "cannot reach the API" in out.stderr and "Traceback" not in out.stderr
-    bad_env = {**env, "SOAKLINE_JOB_TIMEOUT_S": "soon"}
+    bad_env = {**env, "SOAKLINE_LEASE_S": "soon"}
     out = _run(bad_env, "status", "1")
-    assert out.returncode == 2 and "SOAKLINE_JOB_TIMEOUT_S" in out.stderr and "Traceback" not in out.stderr
+    assert out.returncode == 2 and "SOAKLINE_LEASE_S" in out.stderr and "Traceback" not in out.stderr
     assert make_settings(pg_settings.database_url).broker_url is None

@@ -24,7 +24,7 @@ def test_roles_and_errors_on_pages_and_api(tmp_path: Path) -> None:
         ).json()["id"]
         with session_factory(settings)() as session:
             for job_id in session.scalars(select(Job.id).where(Job.batch_id == batch_id)).all():
-                execute_job(job_id, settings)
+                execute_job(job_id, settings, owner="test")
             flag_id = session.scalars(select(Flag.id).where(Flag.batch_id == batch_id)).first()
         assert flag_id is not None, "the 20 min soak must leave the thick plate flagged"
 

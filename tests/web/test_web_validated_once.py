@@ -35,7 +35,7 @@ def test_one_validation_per_submit(tmp_path: Path, monkeypatch: pytest.MonkeyPat
         with session_factory(settings)() as session:
             ids = session.scalars(select(Job.id).where(Job.batch_id == batch_id)).all()
         for job_id in ids:
-            execute_job(job_id, settings)
+            execute_job(job_id, settings, owner="test")
 
     with TestClient(create_app(settings, background=False)) as api:
         planner = auth(tokens["planner"])

@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import sys
 import time
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Annotated, Any, NoReturn
 
@@ -21,10 +22,11 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
+from models import parse_time
 from models.settings import Settings, SettingsError, load_settings
 from models.store import DatabaseUnavailable, migrate, session_factory, session_scope, wait_for_database
 from models.tables import Decision, Role
-from scheduler.api.auth import create_token
+from scheduler.api.auth import create_token, list_tokens, revoke_token
 
 __all__ = ["register"]
 
@@ -111,21 +113,74 @@ def worker(
     )
 
 
+def _expiry(text: str | None) -> datetime | None:
+    """``--expires``: a date or time (2027-03-31, 2027-03-31T18:00, UTC) or a duration from now (90 d)."""
+    if text is None:
+        return None
+    try:
+        when = datetime.fromisoformat(text)
+        return when if when.tzinfo is not None else when.replace(tzinfo=UTC)
+    except ValueError:
+        pass
+    try:
+        return datetime.now(UTC) + timedelta(seconds=parse_time(text))
+    except ValueError:
+        _fail(f"--expires: expected a date such as 2027-03-31 or a duration such as '90 d', got {text!r}", 2)
+
+
 def token_create(
     name: Annotated[str, typer.Argument(help="Who or what the token is for.")],
     role: Annotated[Role, typer.Option(help="planner: submit/rerun; reviewer: dispositions; viewer: read.")],
+    expires: Annotated[
+        str | None,
+        typer.Option(help="When it stops working: a date (2027-03-31, UTC) or a duration ('90 d')."),
+    ] = None,
 ) -> None:
     """Create an API token; it is printed once, as the last word, and only its hash is stored."""
     settings = _settings()
+    expires_at = _expiry(expires)
     _prepare_database(settings)
     try:
         with session_scope(session_factory(settings)) as session:
-            token = create_token(session, name, role)
+            token = create_token(session, name, role, expires_at)
     except ValueError as exc:
         _fail(str(exc), 2)
     out.print(
         f"{role.value} token for {name} (shown once, keep it safe): {token}", highlight=False, soft_wrap=True
     )
+
+
+def _when(at: datetime | None) -> str:
+    return "-" if at is None else at.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
+def token_list() -> None:
+    """List the tokens: name, role, created, last used, expiry (never the tokens themselves)."""
+    settings = _settings()
+    _prepare_database(settings)
+    with session_factory(settings)() as session:
+        tokens = list_tokens(session)
+    table = Table(title=f"{len(tokens)} token(s)")
+    for col in ("name", "role", "created", "last used", "expires"):
+        table.add_column(col)
+    now = datetime.now(UTC)
+    for t in tokens:
+        expires = _when(t.expires_at) + (
+            " (expired)" if t.expires_at is not None and t.expires_at <= now else ""
+        )
+        table.add_row(t.name, t.role.value, _when(t.created_at), _when(t.last_used_at), expires)
+    out.print(table)
+
+
+def token_revoke(name: Annotated[str, typer.Argument(help="Name of the token to revoke.")]) -> None:
+    """Revoke a token: it stops working at once (page sessions too), and the name can be reused."""
+    settings = _settings()
+    _prepare_database(settings)
+    with session_scope(session_factory(settings)) as session:
+        found = revoke_token(session, name)
+    if not found:
+        _fail(f"no token named {name!r} (see soakline token list)", 2)
+    out.print(f"token {name} revoked", highlight=False)
 
 
 # -- HTTP client ---------------------------------------------------------------------------------------
@@ -337,6 +392,8 @@ def register(app: typer.Typer) -> None:
     app.command("worker")(worker)
     token_app = typer.Typer(help="API tokens.", no_args_is_help=True)
     token_app.command("create")(token_create)
+    token_app.command("list")(token_list)
+    token_app.command("revoke")(token_revoke)
     app.add_typer(token_app, name="token")
     for fn in (submit, status, flags, rerun, compare, review):
         app.command(fn.__name__)(fn)

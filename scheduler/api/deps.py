@@ -63,7 +63,7 @@ def current_token(
         raise Unauthorized("missing token: send 'Authorization: Bearer TOKEN'")
     principal = lookup_token(session, credentials.credentials)
     if principal is None:
-        raise Unauthorized("unknown token")
+        raise Unauthorized("unknown, revoked or expired token")
     return principal
 
 

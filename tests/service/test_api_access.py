@@ -79,7 +79,7 @@ def test_401_and_403(
     assert "token" in missing.json()["detail"]
     unknown = _call(client, method, path, body, auth("sl_not-a-real-token"))
     assert unknown.status_code == 401
-    assert unknown.json() == {"detail": "unknown token"}
+    assert unknown.json() == {"detail": "unknown, revoked or expired token"}
 
     for role, token in tokens.items():
         response = _call(client, method, path, body, auth(token))

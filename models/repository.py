@@ -35,7 +35,7 @@ __all__ = [
     "release",
     "renew",
     "requeue_stale",
-    "save_result",
+    "save_results",
 ]
 
 _UNFINISHED = (JobStatus.QUEUED, JobStatus.RUNNING)
@@ -70,10 +70,16 @@ def claim(session: Session, job_id: int, settings: Settings, *, owner: str) -> t
     with :func:`claim_next`). Every take counts an attempt; a take whose transaction rolled back did not
     happen. The batch goes from queued to running with its first job.
     """
-    job = session.get(Job, job_id, with_for_update=True)
-    if job is None or job.status in _FINISHED:
+
+    def held_elsewhere(row: Job) -> bool:
+        return row.status == JobStatus.RUNNING and row.owner != owner and row.deadline > utcnow()
+
+    # Most messages of a grouped batch find their job done or held: say so without taking a lock.
+    job = session.get(Job, job_id)
+    if job is None or job.status in _FINISHED or held_elsewhere(job):
         return job, False
-    if job.status == JobStatus.RUNNING and job.owner != owner and job.deadline > utcnow():
+    job = session.get(Job, job_id, with_for_update=True, populate_existing=True)
+    if job is None or job.status in _FINISHED or held_elsewhere(job):
         return job, False
     job.attempts += 1
     if job.attempts > settings.max_attempts:
@@ -195,51 +201,64 @@ def _insert_ignore(session: Session, table: Any) -> Any:
     return (postgresql.insert if dialect == "postgresql" else sqlite.insert)(table)
 
 
-def save_result(session: Session, job: Job, result: PartResult) -> bool:
-    """Store a part's result and flags once and mark its job done; True when this call wrote them.
+def save_results(session: Session, done: Sequence[tuple[Job, PartResult]]) -> set[str]:
+    """Store parts' results and flags once and mark their jobs done; the part ids this call wrote.
 
-    The insert is ``ON CONFLICT DO NOTHING`` on (batch, part) and the flags go in only when it took,
-    all in the caller's transaction: a duplicate delivery changes nothing.
+    One statement each for the results, their flags and the jobs, whatever the size of the group. The
+    result insert is ``ON CONFLICT DO NOTHING`` on (batch, part) and flags go in only for the results
+    that took, all in the caller's transaction: a duplicate delivery changes nothing.
     """
-    body = json_safe(result)
-    assert isinstance(body, dict)
-    flags: list[dict[str, Any]] = body["flags"]
-    stmt = (
-        _insert_ignore(session, Result)
-        .values(
-            batch_id=job.batch_id,
-            part_id=job.part_id,
-            flagged=bool(result["flagged"]),
-            body=body,
-            created_at=utcnow(),
-        )
-        .on_conflict_do_nothing(index_elements=["batch_id", "part_id"])
-        .returning(Result.id)
-    )
-    inserted = session.execute(stmt).scalar_one_or_none() is not None
-    if inserted and flags:
-        session.execute(
-            _insert_ignore(session, Flag)
+    if not done:
+        return set()
+    now = utcnow()
+    bodies = {job.part_id: json_safe(result) for job, result in done}
+    batch_id = done[0][0].batch_id
+    inserted = set(
+        session.scalars(
+            _insert_ignore(session, Result)
             .values(
                 [
                     {
                         "batch_id": job.batch_id,
                         "part_id": job.part_id,
-                        "seq": seq,
-                        "step": flag["step"],
-                        "at": flag["at"],
-                        "target": flag["target"],
-                        "status": "open",
-                        "body": flag,
-                        "created_at": utcnow(),
+                        "flagged": bool(result["flagged"]),
+                        "body": bodies[job.part_id],
+                        "created_at": now,
                     }
-                    for seq, flag in enumerate(flags)
+                    for job, result in done
                 ]
             )
+            .on_conflict_do_nothing(index_elements=["batch_id", "part_id"])
+            .returning(Result.part_id)
+        )
+    )
+    flags = [
+        {
+            "batch_id": batch_id,
+            "part_id": part_id,
+            "seq": seq,
+            "step": flag["step"],
+            "at": flag["at"],
+            "target": flag["target"],
+            "status": "open",
+            "body": flag,
+            "created_at": now,
+        }
+        for part_id in sorted(inserted)
+        for seq, flag in enumerate(cast(dict[str, Any], bodies[part_id])["flags"])
+    ]
+    if flags:
+        session.execute(
+            _insert_ignore(session, Flag)
+            .values(flags)
             .on_conflict_do_nothing(index_elements=["batch_id", "part_id", "seq"])
         )
-    job.status = JobStatus.DONE
-    job.error = None
+    _hit(
+        session,
+        update(Job)
+        .where(Job.id.in_([job.id for job, _ in done]))
+        .values(status=JobStatus.DONE.value, error=None, owner=None, updated_at=now),
+    )
     return inserted
 
 

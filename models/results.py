@@ -8,6 +8,7 @@ these very dictionaries), typed for the checker so that every hop names its fiel
 
 from __future__ import annotations
 
+import json
 import math
 from collections.abc import Mapping
 from typing import NotRequired, TypedDict
@@ -113,13 +114,25 @@ class SuggestBody(TypedDict):
 
 
 def json_safe(value: object) -> object:
-    """JSON-safe copy: numpy scalars and arrays become numbers and lists, non-finite floats None."""
+    """JSON-safe form: numpy scalars and arrays become numbers and lists, non-finite floats None.
+
+    A value that strict JSON already accepts (the engine's results are rounded lists of plain floats)
+    is returned as it is: one pass of the C encoder instead of a Python walk over every sample.
+    """
+    try:
+        json.dumps(value, allow_nan=False)
+    except (TypeError, ValueError):
+        return _json_safe(value)
+    return value
+
+
+def _json_safe(value: object) -> object:
     if isinstance(value, Mapping):
-        return {str(k): json_safe(v) for k, v in value.items()}
+        return {str(k): _json_safe(v) for k, v in value.items()}
     if isinstance(value, list | tuple):
-        return [json_safe(v) for v in value]
+        return [_json_safe(v) for v in value]
     if hasattr(value, "tolist"):
-        return json_safe(value.tolist())
+        return _json_safe(value.tolist())
     if isinstance(value, float):
         return value if math.isfinite(value) else None
     if isinstance(value, str | int | bool) or value is None:

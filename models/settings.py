@@ -50,7 +50,7 @@ class Settings(BaseSettings):
     sweep_interval_s: float = Field(default=10.0, gt=0)
     max_attempts: int = Field(default=5, ge=1)
     # A worker computes up to this many queued parts of a batch in one vectorised engine call...
-    group_parts: int = Field(default=50, ge=1, le=1000)
+    group_parts: int = Field(default=250, ge=1, le=1000)
     # ...and no more than about this much estimated computing time (a nonlinear block costs hundreds of
     # plates), so that a batch of heavy parts is shared among workers and a lost worker loses little.
     group_seconds: float = Field(default=10.0, gt=0)

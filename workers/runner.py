@@ -130,17 +130,21 @@ def compute(spec: BatchSpec, part_ids: Sequence[str]) -> dict[str, PartResult | 
 def _save(
     session: Session, group: dict[int, str], results: dict[str, PartResult | Exception], error: str | None
 ) -> None:
-    for job_id, part_id in sorted(group.items()):
-        row = session.get_one(Job, job_id, with_for_update=True)
+    """Store the group's results (one statement each for results, flags and jobs) and fail the parts
+    that have none; rows locked together, in id order, so that two savers never deadlock."""
+    rows = session.scalars(select(Job).where(Job.id.in_(list(group))).order_by(Job.id).with_for_update())
+    done: list[tuple[Job, PartResult]] = []
+    for row in rows:
         if row.status == JobStatus.DONE:
             continue
-        outcome = results.get(part_id)
+        outcome = results.get(row.part_id)
         if isinstance(outcome, dict):
-            jobs_repo.save_result(session, row, outcome)
+            done.append((row, outcome))
         elif isinstance(outcome, Exception):
             jobs_repo.fail_job(row, _error_text(outcome))
         else:
             jobs_repo.fail_job(row, error or "the engine returned no result for this part")
+    jobs_repo.save_results(session, done)
 
 
 class Heartbeat(threading.Thread):
@@ -223,8 +227,9 @@ def execute_job(job_id: int, settings: Settings | None = None, *, owner: str) ->
                 log.exception("batch %s: its stored spec cannot be used", batch_id)
                 error = _error_text(exc)
     if not group:
-        with session_scope(factory) as session:
-            jobs_repo.finish_batch(session, batch_id)
+        if job.status == JobStatus.FAILED:  # given up just now: its batch may be complete
+            with session_scope(factory) as session:
+                jobs_repo.finish_batch(session, batch_id)
         return Outcome.SKIPPED
 
     with Heartbeat(settings, list(group), owner):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Body, Path, Query, Request
+from fastapi import APIRouter, BackgroundTasks, Body, Path, Query, Request
 
 from models.tables import BatchStatus
 from scheduler.api import service
@@ -37,16 +37,29 @@ _EXAMPLE = {
 }
 
 
+def _after_response(request: Request, background: BackgroundTasks) -> service.Dispatch:
+    """Hand committed jobs on once the response is sent: the client's 202 does not wait for one broker
+    message per part (about 1 ms each), and the jobs are in the database already, so a broker that
+    fails meanwhile leaves them to the sweeper exactly as a failure during the request would."""
+    dispatch = request.app.state.dispatch
+
+    def later(job_ids: list[int]) -> None:
+        background.add_task(service.hand_on, dispatch, job_ids)
+
+    return later
+
+
 @router.post("", status_code=202, response_model=BatchCreated)
 def submit_batch(
     request: Request,
+    background: BackgroundTasks,
     session: SessionDep,
     settings: SettingsDep,
     who: Planner,
     doc: Annotated[dict[str, Any], Body(description="The batch file, as JSON.", examples=[_EXAMPLE])],
 ) -> BatchCreated:
     """Queue a batch (planner). 422 lists every problem of the file with its field path."""
-    batch = service.submit(session, settings, doc, who, request.app.state.dispatch)
+    batch = service.submit(session, settings, doc, who, _after_response(request, background))
     return BatchCreated(id=batch.id, status=BatchStatus(batch.status))
 
 
@@ -79,12 +92,15 @@ def rerun_batch(
     batch_id: BatchId,
     body: RerunCreate,
     request: Request,
+    background: BackgroundTasks,
     session: SessionDep,
     settings: SettingsDep,
     who: Planner,
 ) -> BatchCreated:
     """Queue the batch again with new step durations (planner); the new batch links to this one."""
-    batch = service.rerun(session, settings, batch_id, body.durations, who, request.app.state.dispatch)
+    batch = service.rerun(
+        session, settings, batch_id, body.durations, who, _after_response(request, background)
+    )
     return BatchCreated(id=batch.id, status=BatchStatus(batch.status), parent_id=batch.parent_id)
 
 

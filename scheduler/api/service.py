@@ -57,6 +57,7 @@ __all__ = [
     "get_batch",
     "get_batch_record",
     "get_flag",
+    "hand_on",
     "list_batches",
     "list_flags",
     "open_flag_counts",
@@ -125,7 +126,7 @@ def _create(
     return batch, [job.id for job in jobs]
 
 
-def _hand_on(dispatch: Dispatch, job_ids: list[int]) -> None:
+def hand_on(dispatch: Dispatch, job_ids: list[int]) -> None:
     """Queue committed jobs. A failure here never fails the request: the batch is stored, its jobs stay
     queued in the database and the sweeper sends them once the broker answers (``/health`` says it is
     down meanwhile), so the client gets its 202 and never a reason to submit a duplicate."""
@@ -142,7 +143,7 @@ def submit(
     spec = validate(doc, max_parts=settings.max_parts)
     batch, job_ids = _create(session, settings, doc, spec, who)
     session.commit()
-    _hand_on(dispatch, job_ids)
+    hand_on(dispatch, job_ids)
     return batch
 
 
@@ -171,7 +172,7 @@ def rerun(
         raise InvalidInput("the batch file is invalid", problems) from None
     batch, job_ids = _create(session, settings, parent.spec, spec, who, merged, parent.id)
     session.commit()
-    _hand_on(dispatch, job_ids)
+    hand_on(dispatch, job_ids)
     return batch
 
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import resource
 import secrets
 import statistics
 import subprocess
@@ -67,12 +68,41 @@ def _soakline_run(doc: dict[str, Any], tmp: Path) -> float | None:
         str(tmp / "out.json"),
     ]
     start = time.perf_counter()
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     done = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True)
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
     elapsed = time.perf_counter() - start
+    cpu = after.ru_utime + after.ru_stime - before.ru_utime - before.ru_stime
+    print(f"  soakline run CPU: {1000 * cpu / len(doc['parts']):.1f} ms per part")
     if done.returncode not in (0, 1) or not (tmp / "out.json").is_file():
         print(f"  soakline run unavailable (exit {done.returncode}): {done.stderr.strip()[-300:]}")
         return None
     return elapsed
+
+
+def _cpu_s(root: int) -> float:
+    """CPU seconds (user + system) used so far by a process and its living descendants (Linux /proc).
+
+    On a machine shared with other work the wall time of a run says more about the neighbours than
+    about soakline; CPU seconds per part do not."""
+    ticks = os.sysconf("SC_CLK_TCK")
+    parents: dict[int, int] = {}
+    used: dict[int, float] = {}
+    for entry in Path("/proc").iterdir():
+        if not entry.name.isdigit():
+            continue
+        try:
+            fields = (entry / "stat").read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        parents[int(entry.name)] = int(fields[1])
+        used[int(entry.name)] = (int(fields[11]) + int(fields[12])) / ticks
+    total, todo = 0.0, [root]
+    while todo:
+        pid = todo.pop()
+        total += used.get(pid, 0.0)
+        todo += [child for child, parent in parents.items() if parent == pid]
+    return total
 
 
 def _run_batch(client: httpx.Client, doc: dict[str, Any]) -> tuple[float, str]:
@@ -141,11 +171,15 @@ def main() -> None:
                 proc = _start([*worker, "-Q", env["SOAKLINE_QUEUE"]], env, tmp / f"worker{processes}.log")
                 time.sleep(4)
                 _run_batch(client, batch_doc(20, label="warm-up"))  # imports, first engine call
+                cpu = _cpu_s(proc.pid)
                 took, status = _run_batch(client, doc)
+                cpu = _cpu_s(proc.pid) - cpu
                 figures[f"parts_per_s_{processes}"] = opts.parts / took
+                figures[f"worker_cpu_ms_per_part_{processes}"] = 1000 * cpu / opts.parts
                 print(
                     f"service, {processes} worker process(es): {opts.parts} parts in {took:.2f} s "
-                    f"= {opts.parts / took:.1f} parts/s (batch {status})"
+                    f"= {opts.parts / took:.1f} parts/s (batch {status}); workers' CPU "
+                    f"{1000 * cpu / opts.parts:.1f} ms per part"
                 )
                 proc.terminate()
                 proc.wait(60)

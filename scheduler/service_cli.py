@@ -106,11 +106,12 @@ def worker(
         _fail("SOAKLINE_BROKER_URL is not set; a worker needs a broker such as redis://127.0.0.1:6379/0", 2)
     _check_broker(settings)
     _prepare_database(settings)
-    from workers.celery_app import app
+    from scheduler.supervise import supervise
 
-    app.worker_main(
-        ["worker", f"--concurrency={concurrency}", f"--loglevel={loglevel}", "-Q", settings.queue]
-    )
+    # The Celery worker runs as a child that is started again if it dies on its own (scheduler.supervise).
+    celery = [sys.executable, "-m", "celery", "-A", "workers", "worker"]
+    args = [f"--concurrency={concurrency}", f"--loglevel={loglevel}", "-Q", settings.queue]
+    raise typer.Exit(supervise([*celery, *args], say=lambda m: err.print(m, highlight=False)))
 
 
 def _expiry(text: str | None) -> datetime | None:

@@ -1,6 +1,7 @@
 """Start a real service process for the tests: ``launch.py worker ARGS`` or ``launch.py cli ARGS``.
 
-``worker`` is ``celery -A workers worker ARGS`` and ``cli`` the service CLI (serve, token, submit...),
+``worker`` is ``celery -A workers worker ARGS`` under the supervisor ``soakline worker`` uses, and
+``cli`` the service CLI (serve, token, submit...),
 plus one test-only hook: ``SOAKLINE_TEST_PART_DELAY_S``, a pause before each part, so that a test can
 kill or cut things off while a batch is surely still in flight however fast the engine becomes.
 """
@@ -34,7 +35,11 @@ if delay > 0:
 
 
 def main() -> None:
-    if sys.argv[1] == "worker":
+    if sys.argv[1] == "worker":  # as `soakline worker` runs it: a supervised child
+        from scheduler.supervise import supervise
+
+        sys.exit(supervise([sys.executable, __file__, "celery-worker", *sys.argv[2:]]))
+    elif sys.argv[1] == "celery-worker":
         from workers.celery_app import app
 
         app.worker_main(["worker", *sys.argv[2:]])

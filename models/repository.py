@@ -31,6 +31,7 @@ __all__ = [
     "find_stale",
     "finish_batch",
     "mark_unsent",
+    "next_queued",
     "open_batch_ids",
     "release",
     "renew",
@@ -141,12 +142,40 @@ def claim_siblings(
         budget -= costs.get(row.part_id, 0.0)
         if budget < 0:
             break
-        row.status = JobStatus.RUNNING
-        row.attempts += 1
-        row.owner = job.owner
-        row.deadline = job.deadline
         taken.append(row)
+    if taken:  # one statement for the group, not one per row
+        _hit(
+            session,
+            update(Job)
+            .where(Job.id.in_([row.id for row in taken]))
+            .values(
+                status=JobStatus.RUNNING.value,
+                attempts=Job.attempts + 1,
+                owner=job.owner,
+                deadline=job.deadline,
+                updated_at=utcnow(),
+            ),
+        )
     return taken
+
+
+def next_queued(session: Session, batch_id: int, settings: Settings) -> int | None:
+    """The first job of a batch still queued after a claim, for the next message (see workers.runner);
+    the batch's queued jobs get a fresh deadline, since a worker is evidently on the batch (rows another
+    claim holds are skipped, not waited for)."""
+    waiting = (
+        select(Job.id)
+        .where(Job.batch_id == batch_id, Job.status == JobStatus.QUEUED)
+        .with_for_update(skip_locked=True)
+        .scalar_subquery()
+    )
+    _hit(session, update(Job).where(Job.id.in_(waiting)).values(deadline=_lease_end(settings)))
+    return session.scalar(
+        select(Job.id)
+        .where(Job.batch_id == batch_id, Job.status == JobStatus.QUEUED)
+        .order_by(Job.id)
+        .limit(1)
+    )
 
 
 def claim_next(session: Session, settings: Settings, owner: str, tries: int = 5) -> int | None:
@@ -309,9 +338,13 @@ def finish_batch(session: Session, batch_id: int) -> bool:
 
 
 def open_batch_ids(session: Session, limit: int = 500) -> Sequence[int]:
-    """Batches still queued or running (the sweeper tries to close them)."""
+    """Batches still queued or running whose jobs are all finished: the sweeper closes them (their last
+    finish was lost). One query, however many batches are open."""
+    unfinished = select(Job.id).where(Job.batch_id == Batch.id, Job.status.in_(_UNFINISHED)).exists()
     return session.scalars(
-        select(Batch.id).where(Batch.status.in_([BatchStatus.QUEUED, BatchStatus.RUNNING])).limit(limit)
+        select(Batch.id)
+        .where(Batch.status.in_([BatchStatus.QUEUED, BatchStatus.RUNNING]), ~unfinished)
+        .limit(limit)
     ).all()
 
 

@@ -134,7 +134,7 @@ def run_job(self: Task[Any, Any], job_id: int) -> str:
     # The task id stays the same on this task's own retries: a retry takes its job back at once.
     owner = f"celery:{self.request.id or job_id}"
     try:
-        return str(execute_job(job_id, settings, owner=owner))
+        return str(execute_job(job_id, settings, owner=owner, relay=CeleryDispatcher(settings)))
     except Exception as exc:
         retryable = is_transient(exc) or isinstance(exc, BROKER_ERRORS)
         if not retryable or self.request.retries >= MAX_TASK_RETRIES:

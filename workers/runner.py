@@ -26,7 +26,7 @@ from collections.abc import Sequence
 from enum import StrEnum
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, sessionmaker
 
 from models import BatchSpec
 from models import repository as jobs_repo
@@ -37,6 +37,7 @@ from models.store import OutageLog, is_outage, session_factory, session_scope
 from models.tables import Batch, Job, JobStatus
 from workers import jobs
 from workers.cost import part_costs
+from workers.dispatch import Dispatcher
 
 __all__ = ["Heartbeat", "Outcome", "backoff_s", "compute", "execute_job", "is_transient", "load_batch_spec"]
 
@@ -147,6 +148,17 @@ def _save(
     jobs_repo.save_results(session, done)
 
 
+def _relay(factory: sessionmaker[Session], relay: Dispatcher, batch_id: int, settings: Settings) -> None:
+    """Send a message for the batch's next queued job (a failure is left to the sweeper)."""
+    try:
+        with session_scope(factory) as session:
+            next_id = jobs_repo.next_queued(session, batch_id, settings)
+        if next_id is not None:
+            relay([next_id])
+    except Exception as exc:
+        log.warning("batch %s: could not pass the batch on (%s); the sweeper will", batch_id, exc)
+
+
 class Heartbeat(threading.Thread):
     """Renews the lease of the jobs an execution holds, every ``SOAKLINE_LEASE_S / 3``, until stopped:
     however long a group computes, the sweeper sees its jobs held and sends none of them again. When
@@ -199,11 +211,16 @@ def _part_costs(spec: BatchSpec) -> dict[str, float]:
     return costs
 
 
-def execute_job(job_id: int, settings: Settings | None = None, *, owner: str) -> Outcome:
+def execute_job(
+    job_id: int, settings: Settings | None = None, *, owner: str, relay: Dispatcher | None = None
+) -> Outcome:
     """Run one job (and the sibling jobs it takes) to the end, as ``owner``.
 
     ``owner`` names this execution: a Celery task id (the same on the task's own retries, so a retry
     takes its job back at once), or an in-process runner's claim (:func:`models.repository.claim_next`).
+    ``relay`` (the queue's dispatcher) gets the batch's next queued job, if any, as soon as this group
+    is claimed: a submit sends one message per group's worth of parts rather than one per part, and
+    each claim passes the batch on, so that every free worker joins in within milliseconds.
     """
     settings = settings or get_settings()
     factory = session_factory(settings)
@@ -226,6 +243,8 @@ def execute_job(job_id: int, settings: Settings | None = None, *, owner: str) ->
                     raise
                 log.exception("batch %s: its stored spec cannot be used", batch_id)
                 error = _error_text(exc)
+    if group and relay is not None:
+        _relay(factory, relay, batch_id, settings)
     if not group:
         if job.status == JobStatus.FAILED:  # given up just now: its batch may be complete
             with session_scope(factory) as session:

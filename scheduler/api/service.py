@@ -58,6 +58,7 @@ __all__ = [
     "get_batch_record",
     "get_flag",
     "hand_on",
+    "leaders",
     "list_batches",
     "list_flags",
     "open_flag_counts",
@@ -150,6 +151,13 @@ def hand_on(dispatch: Dispatch, job_ids: list[int]) -> None:
         log.warning("could not queue %d job(s) (%s); the sweeper will", len(job_ids), type(exc).__name__)
 
 
+def leaders(job_ids: list[int], settings: Settings) -> list[int]:
+    """The jobs of a new batch that get a message: one per ``SOAKLINE_GROUP_PARTS`` parts. A worker
+    that claims one takes its group and passes the batch on to the next free worker (the runner's
+    relay), so one message per part is not needed; the sweeper re-sends any that get lost."""
+    return job_ids[:: max(1, settings.group_parts)]
+
+
 def submit(
     session: Session, settings: Settings, doc: Mapping[str, Any], who: Principal, dispatch: Dispatch
 ) -> Batch:
@@ -157,7 +165,7 @@ def submit(
     spec = validate(doc, max_parts=settings.max_parts)
     batch, job_ids = _create(session, settings, doc, spec, who)
     session.commit()
-    hand_on(dispatch, job_ids)
+    hand_on(dispatch, leaders(job_ids, settings))
     return batch
 
 
@@ -186,7 +194,7 @@ def rerun(
         raise InvalidInput("the batch file is invalid", problems) from None
     batch, job_ids = _create(session, settings, parent.spec, spec, who, merged, parent.id)
     session.commit()
-    hand_on(dispatch, job_ids)
+    hand_on(dispatch, leaders(job_ids, settings))
     return batch
 
 

@@ -31,22 +31,45 @@ PLANNER = Principal("planner-test", Role.PLANNER)
 
 
 def _submit(settings: Settings, parts: int) -> tuple[int, list[int]]:
-    sent: list[int] = []
+    """A submitted batch and all its job ids (the dispatcher gets only the leaders)."""
     with session_factory(settings)() as session:
-        batch = service.submit(session, settings, batch_doc(parts), PLANNER, sent.extend)
-    return batch.id, sent
+        batch = service.submit(session, settings, batch_doc(parts), PLANNER, lambda ids: [])
+        ids = session.scalars(select(Job.id).where(Job.batch_id == batch.id).order_by(Job.id)).all()
+    return batch.id, list(ids)
 
 
 def test_jobs_are_committed_before_dispatch(pg_settings: Settings) -> None:
     seen: list[int] = []
+    sent: list[int] = []
 
     def dispatch(ids: list[int]) -> None:
+        sent.extend(ids)
         with session_factory(pg_settings)() as other:  # another connection sees them: committed
             seen.extend(other.scalars(select(Job.id).where(Job.id.in_(ids))).all())
 
-    with session_factory(pg_settings)() as session:
-        service.submit(session, pg_settings, batch_doc(5), PLANNER, dispatch)
-    assert len(seen) == 5
+    settings = pg_settings.model_copy(update={"group_parts": 2})
+    with session_factory(settings)() as session:
+        service.submit(session, settings, batch_doc(5), PLANNER, dispatch)
+    assert len(sent) == 3, "one message per group's worth of parts: jobs 1, 3 and 5"
+    assert seen == sent
+
+
+def test_a_claim_passes_the_batch_on(pg_settings: Settings) -> None:
+    settings = pg_settings.model_copy(update={"group_parts": 3})
+    batch_id, job_ids = _submit(settings, 8)
+    relayed: list[int] = []
+
+    def relay(ids: Any) -> list[int]:
+        relayed.extend(ids)
+        return []
+
+    # 8 queued: the first claim takes 3 (the group limit) and passes on the first job still queued.
+    assert execute_job(job_ids[0], settings, owner="a", relay=relay) == "done"
+    assert relayed == [job_ids[3]]
+    assert execute_job(job_ids[3], settings, owner="b", relay=relay) == "done"
+    assert execute_job(job_ids[6], settings, owner="c", relay=relay) == "done"
+    assert relayed == [job_ids[3], job_ids[6]], "nothing left to pass on after the last group"
+    assert_complete_exactly_once(settings, batch_id, 8)
 
 
 def test_redelivery_and_concurrent_duplicates_store_one_result(pg_settings: Settings) -> None:

@@ -5,7 +5,8 @@ A job is:
 
 1. claimed: attempts counted, a lease taken for this execution (its owner), the batch marked running,
    and queued sibling jobs of the same batch taken along (SKIP LOCKED), up to ``SOAKLINE_GROUP_PARTS``
-   and about ``SOAKLINE_GROUP_SECONDS`` of estimated computing (``workers.cost``);
+   and about ``SOAKLINE_GROUP_SECONDS`` of estimated computing (``workers.cost``); then the batch is
+   passed on (``relay``: a message for its next queued job), so that other free workers join in;
 2. computed: the engine on the stored batch, one vectorised call for the group (``run_batch`` on the
    group's parts; part by part with ``run_part`` if that fails), pure: no database inside, while a
    heartbeat thread renews the group's lease;

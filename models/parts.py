@@ -121,12 +121,23 @@ class PartSpec(SpecModel):
         ]
         problems += _composition_rules(raw)
         targets = raw.get("targets")
-        if shape not in _WITH_CORNER and isinstance(targets, list):
-            problems += [
-                (("targets", i, "at"), f"corner is reported for blocks and cylinders only, not for a {shape}")
-                for i, t in enumerate(targets)
-                if (raw_target := as_raw(t)) is not None and raw_target.get("at") == "corner"
-            ]
+        if isinstance(targets, list):
+            points = [(i, raw_target.get("at")) for i, t in enumerate(targets) if (raw_target := as_raw(t))]
+            if shape not in _WITH_CORNER:
+                problems += [
+                    (
+                        ("targets", i, "at"),
+                        f"corner is reported for blocks and cylinders only, not for a {shape}",
+                    )
+                    for i, at in points
+                    if at == "corner"
+                ]
+            if shape != "plate":
+                problems += [
+                    (("targets", i, "at"), f"underside is reported for plates only, not for a {shape}")
+                    for i, at in points
+                    if at == "underside"
+                ]
         return problems
 
     def _length_m(self, text: str | None) -> float | None:

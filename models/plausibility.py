@@ -111,8 +111,17 @@ def target_warnings(spec: BatchSpec) -> list[Problem]:
     part composition outside the range of a method its estimate uses (``chemistry_warnings``)."""
     bounds = catalog.bounds()
     found: list[Problem] = []
+    two_faces = any(s.lower_face is not None for s in spec.schedule)
     for i, part in enumerate(spec.parts):
         for j, target in enumerate(part.targets):
+            if target.at == "underside" and not two_faces:
+                found.append(
+                    Problem(
+                        format_path(("parts", i, "targets", j, "at")),
+                        "no step gives the plate a lower face, so its underside exchanges heat like its "
+                        "surface and reads the same",
+                    )
+                )
             kind = target.kind
             path = format_path(("parts", i, "targets", j, kind.value))
             if kind in (TargetKind.TEMPER_PARAMETER_MIN, TargetKind.TEMPER_PARAMETER_MAX):

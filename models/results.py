@@ -58,7 +58,7 @@ class TraceBody(TypedDict):
     surface_c: list[float | None]
     ambient_c: list[float | None]
     corner_c: NotRequired[list[float | None]]
-    second_surface_c: NotRequired[list[float | None]]
+    underside_c: NotRequired[list[float | None]]  # plates in a schedule with a lower face
     bound_k: list[float | None]
 
 

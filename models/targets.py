@@ -12,7 +12,7 @@ from models import catalog, units
 from models.base import RuleProblem, SpecModel
 from models.fields import DurationText, PositiveNumber, TemperatureDeltaText, TemperatureText, Text
 
-Point = Literal["core", "surface", "corner"]
+Point = Literal["core", "surface", "corner", "underside"]
 
 
 class TargetKind(StrEnum):
@@ -40,7 +40,7 @@ class TargetSpec(SpecModel):
     """One target of a part in one step; exactly one of the kinds in ``TargetKind`` is given.
 
     ``at`` is required for hold/stay/fall targets. A ``max_difference`` target compares the core with
-    ``at`` (surface by default, or corner); a temper-parameter target is read at ``at`` (core by
+    ``at`` (surface by default, corner or underside); a temper-parameter target is read at ``at`` (core by
     default). ``constant`` is the Hollomon-Jaffe C, from the catalog when not given.
     """
 
@@ -71,10 +71,13 @@ class TargetSpec(SpecModel):
             if raw.get(extra) is not None and kind not in kinds:
                 problems.append(((extra,), f"only used with {' or '.join(sorted(kinds))}, not with {kind}"))
         if kind in _NEEDS_POINT and raw.get("at") is None:
-            problems.append((("at",), "required: core, surface or corner"))
+            problems.append((("at",), "required: core, surface, corner or underside"))
         if kind == "max_difference" and raw.get("at") == "core":
             problems.append(
-                (("at",), "max_difference compares the core with surface or corner; core is not allowed")
+                (
+                    ("at",),
+                    "max_difference compares the core with surface, corner or underside; core is not allowed",
+                )
             )
         return problems
 

@@ -109,7 +109,7 @@ def _trace_json(trace: Trace) -> TraceBody:
     if trace.corner_c is not None:
         out["corner_c"] = _floats(trace.corner_c, _TEMP_DECIMALS)
     if trace.second_surface_c is not None:
-        out["second_surface_c"] = _floats(trace.second_surface_c, _TEMP_DECIMALS)
+        out["underside_c"] = _floats(trace.second_surface_c, _TEMP_DECIMALS)
     return out
 
 

@@ -31,7 +31,7 @@ FloatArray = NDArray[np.float64]
 Kind = Literal[
     "hold_above", "stay_below", "fall_below", "max_difference", "temper_parameter_min", "temper_parameter_max"
 ]
-Point = Literal["core", "surface", "corner"]
+Point = Literal["core", "surface", "corner", "underside"]
 MissSpans = tuple[tuple[float, float], ...]
 # Targets whose value is a temperature on the trace's own axis (a chart draws them as a line).
 TEMPERATURE_KINDS: tuple[str, ...] = ("hold_above", "stay_below", "fall_below")
@@ -260,6 +260,10 @@ def _location(trace: Trace, at: Point) -> FloatArray:
         return trace.core_c
     if at == "surface":
         return trace.surface_c
+    if at == "underside":
+        # a plate whose schedule gives no lower face exchanges alike on both faces: its underside is its
+        # surface
+        return trace.surface_c if trace.second_surface_c is None else trace.second_surface_c
     if trace.corner_c is None:
         raise ValueError("this part has no corner (blocks and short cylinders only)")
     return trace.corner_c

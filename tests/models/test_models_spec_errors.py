@@ -228,7 +228,7 @@ CASES: list[tuple[str, Callable[[Doc], None], str, str]] = [
         "needs at",
         lambda d: _target(d, 0, step="heat", stay_below="900 degC"),
         "parts[0].targets[0].at",
-        "required: core, surface or corner",
+        "required: core, surface, corner or underside",
     ),
     (
         "bad at",

@@ -38,6 +38,7 @@ class FlagBody(TypedDict):
     margin_value: float
     margin_unit: str
     message: str
+    facts: NotRequired[dict[str, float | None]]  # the numbers the texts say (workers.wording)
 
 
 class CheckBody(FlagBody):

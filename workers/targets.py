@@ -2,7 +2,8 @@
 
 Pure numpy and small dataclasses. Every checking function takes SI values (seconds, degC, kelvin
 differences) for one location within one step; ``evaluate`` applies a ``Target`` to a ``Trace`` and
-returns a ``Check`` whose texts carry units for people (degC, K, s/min/h).
+returns a ``Check``: the numbers it found (``facts``) and, from them, texts for people in degC
+(``workers.wording`` says them again in another unit).
 
 Conventions (each is a choice a reviewer may want to know):
 - A step's window runs from its start (the last sample of the step before, or time zero) to its end.
@@ -17,7 +18,7 @@ Conventions (each is a choice a reviewer may want to know):
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Literal
 
 import numpy as np
@@ -26,6 +27,7 @@ from numpy.typing import NDArray
 from models.results import CheckBody, FlagBody
 from workers.thermal import Trace
 from workers.thermal.constants import KELVIN
+from workers.wording import Facts, TempUnit, Texts, describe, format_duration, format_temperature
 
 FloatArray = NDArray[np.float64]
 Kind = Literal[
@@ -43,6 +45,7 @@ __all__ = [
     "Check",
     "Target",
     "evaluate",
+    "facts_texts",
     "first_below",
     "format_duration",
     "format_temperature",
@@ -54,41 +57,6 @@ __all__ = [
     "step_window",
     "tempering_parameter",
 ]
-
-
-# -- formatting ---------------------------------------------------------------------------------------
-
-
-def _trim(x: float, digits: int) -> str:
-    text = f"{x:.{digits}f}"
-    return text.rstrip("0").rstrip(".") if "." in text else text
-
-
-def format_duration(seconds: float, signed: bool = False) -> str:
-    """A time as a shop floor says it: "45 s", "12.5 min", "2 h 05 min"; a sign on request."""
-    sign = ("+" if seconds >= 0 else "-") if signed else ("-" if seconds < 0 else "")
-    s = abs(seconds)
-    if s < 120.0:
-        body = f"{_trim(s, 0)} s"
-    elif s < 100 * 60.0:
-        body = f"{_trim(s / 60.0, 1)} min"
-    else:
-        hours, minutes = divmod(round(s / 60.0), 60)
-        body = f"{hours} h {minutes:02d} min"
-    return sign + body
-
-
-def format_temperature(temp_c: float) -> str:
-    return f"{_trim(temp_c, 1)} degC"
-
-
-def _kelvin_delta(k: float, signed: bool = False) -> str:
-    text = _trim(k, 1)
-    return f"{'+' if signed and k >= 0 else ''}{text} K"
-
-
-def _parameter(p: float, signed: bool = False) -> str:
-    return f"{'+' if signed and p >= 0 else ''}{p:.0f}"
 
 
 # -- the checks on arrays -----------------------------------------------------------------------------
@@ -205,7 +173,8 @@ class Target:
 
 @dataclass(frozen=True)
 class Check:
-    """A target's outcome: texts with units for people, ``margin_value`` in ``margin_unit`` for programs.
+    """A target's outcome: texts with units for people, ``margin_value`` in ``margin_unit`` for programs,
+    and the ``facts`` the texts are said from (``workers.wording``).
 
     ``margin`` is signed: positive is room to spare, negative is what the target was missed by.
     """
@@ -222,6 +191,7 @@ class Check:
     message: str
     limit: float  # the target's own value: degC, K or P by kind
     misses: MissSpans = ()
+    facts: Facts = field(default_factory=dict)
 
     def flag_dict(self) -> FlagBody:
         """The contract's flag: everything but the pass marker."""
@@ -235,6 +205,7 @@ class Check:
             margin_value=self.margin_value,
             margin_unit=self.margin_unit,
             message=self.message,
+            facts=dict(self.facts),
         )
 
     def as_dict(self) -> CheckBody:
@@ -252,7 +223,17 @@ class Check:
             message=self.message,
             limit=self.limit,
             misses=[[a, b] for a, b in self.misses],
+            facts=dict(self.facts),
         )
+
+
+def facts_texts(body: FlagBody | CheckBody, unit: TempUnit) -> Texts:
+    """A stored outcome's texts said again in ``unit``; a result stored before facts were kept keeps its
+    own (degC) texts."""
+    facts = body.get("facts")
+    if not facts:
+        return Texts(body["required"], body["achieved"], body["margin"], body["message"])
+    return describe(body["target"], body["at"], body["step"], facts, unit)
 
 
 def _location(trace: Trace, at: Point) -> FloatArray:
@@ -269,139 +250,79 @@ def _location(trace: Trace, at: Point) -> FloatArray:
     return trace.corner_c
 
 
-def _make(
-    target: Target, passed: bool, required: str, achieved: str, margin: tuple[float, str, str], message: str
-) -> Check:
-    value, unit, text = margin
+def _make(target: Target, passed: bool, margin: tuple[float, str], facts: Facts) -> Check:
+    texts = describe(target.kind, target.at, target.step, facts)
+    value, unit = margin
     return Check(
         target.step,
         target.at,
         target.kind,
         bool(passed),
-        required,
-        achieved,
-        text,
+        texts.required,
+        texts.achieved,
+        texts.margin,
         float(value),
         unit,
-        message,
+        texts.message,
         target.limit,
+        facts=dict(facts),
     )
-
-
-def _time_margin(seconds: float) -> tuple[float, str, str]:
-    return seconds, "s", format_duration(seconds, signed=True)
-
-
-def _temp_margin(kelvin: float) -> tuple[float, str, str]:
-    return kelvin, "K", _kelvin_delta(kelvin, signed=True)
 
 
 def _hold(target: Target, t: FloatArray, temp: FloatArray) -> Check:
     need = target.time_s or 0.0
     held, start = longest_run_above(t, temp, target.limit)
-    lim = format_temperature(target.limit)
-    required = f">= {lim} for {format_duration(need)}"
-    ok = held >= need
-    if start is None:
-        achieved = f"never reached {lim} (peak {format_temperature(peak(temp))})"
-        msg = (
-            f"{target.at} never reached {lim} in {target.step}: peak {format_temperature(peak(temp))}, "
-            f"{format_duration(need)} at or above it required"
-        )
-    else:
-        achieved = f"{format_duration(held)} from {format_duration(start)} into {target.step}"
-        msg = (
-            f"{target.at} held at or above {lim} for {format_duration(held)} of the required "
-            f"{format_duration(need)}"
-            if not ok
-            else f"{target.at} held at or above {lim} for {format_duration(held)} "
-            f"({format_duration(need)} required)"
-        )
-    return _make(target, ok, required, achieved, _time_margin(held - need), msg)
+    facts = {"limit_c": target.limit, "need_s": need, "held_s": held, "start_s": start, "peak_c": peak(temp)}
+    return _make(target, held >= need, (held - need, "s"), facts)
 
 
-def _stay(target: Target, temp: FloatArray) -> Check:
-    top = peak(temp)
-    lim = format_temperature(target.limit)
-    ok = top <= target.limit
-    margin = target.limit - top
-    msg = (
-        f"{target.at} peaked at {format_temperature(top)}, {_kelvin_delta(-margin)} over the {lim} limit"
-        if not ok
-        else f"{target.at} peaked at {format_temperature(top)}, {_kelvin_delta(margin)} under {lim}"
-    )
-    return _make(target, ok, f"<= {lim}", f"peak {format_temperature(top)}", _temp_margin(margin), msg)
+def _stay(target: Target, t: FloatArray, temp: FloatArray) -> Check:
+    i = int(np.argmax(temp))
+    top = float(temp[i])
+    facts = {"limit_c": target.limit, "peak_c": top, "peak_s": float(t[i])}
+    return _make(target, top <= target.limit, (target.limit - top, "K"), facts)
 
 
 def _fall(target: Target, t: FloatArray, temp: FloatArray) -> Check:
-    within = target.time_s or 0.0
-    lim = format_temperature(target.limit)
-    required = f"< {lim} within {format_duration(within)}"
+    within, step_s = target.time_s or 0.0, float(t[-1])
     when = first_below(t, temp, target.limit)
+    facts: dict[str, float | None] = {
+        "limit_c": target.limit,
+        "within_s": within,
+        "step_s": step_s,
+        "when_s": when,
+    }
     if when is None:
-        # never below in the step: say how far above the limit it still was at the deadline
-        at_deadline = float(np.interp(min(within, float(t[-1])), t, temp))
-        margin = _temp_margin(target.limit - at_deadline)
-        achieved = f"still {format_temperature(float(temp[-1]))} at the end of {target.step}"
-        msg = (
-            f"{target.at} never fell below {lim} in {target.step}; at {format_duration(within)} it was "
-            f"{format_temperature(at_deadline)}"
-        )
-        return _make(target, False, required, achieved, margin, msg)
-    ok = when <= within
-    when_text, within_text = format_duration(when), format_duration(within)
-    msg = (
-        f"{target.at} fell below {lim} after {when_text} ({within_text} allowed)"
-        if ok
-        else f"{target.at} fell below {lim} only after {when_text}, {within_text} allowed"
-    )
-    return _make(target, ok, required, f"after {format_duration(when)}", _time_margin(within - when), msg)
+        # never below in the step: how far above the limit it still was when the time allowed ran out
+        instant = min(within, step_s)
+        facts |= {"instant_s": instant, "temp_c": float(np.interp(instant, t, temp))}
+        return _make(target, False, (target.limit - float(facts["temp_c"] or 0.0), "K"), facts)
+    return _make(target, when <= within, (within - when, "s"), facts)
 
 
-def _difference(target: Target, core: FloatArray, other: FloatArray) -> Check:
-    worst = max_difference(core, other)
-    ok = worst <= target.limit
-    margin = target.limit - worst
-    msg = f"core-{target.at} difference reached {_kelvin_delta(worst)}" + (
-        f", over the {_kelvin_delta(target.limit)} limit"
-        if not ok
-        else f" (limit {_kelvin_delta(target.limit)})"
-    )
-    return _make(
-        target,
-        ok,
-        f"<= {_kelvin_delta(target.limit)}",
-        f"{_kelvin_delta(worst)} at most",
-        _temp_margin(margin),
-        msg,
-    )
+def _difference(target: Target, t: FloatArray, core: FloatArray, other: FloatArray) -> Check:
+    gap = np.abs(core - other)
+    i = int(np.argmax(gap))
+    worst = float(gap[i])
+    facts = {"limit_k": target.limit, "worst_k": worst, "worst_s": float(t[i])}
+    return _make(target, worst <= target.limit, (target.limit - worst, "K"), facts)
 
 
 def _temper(target: Target, t: FloatArray, temp: FloatArray) -> Check:
     p = tempering_parameter(t, temp, target.constant)
-    minimum = target.kind == "temper_parameter_min"
-    margin = p - target.limit if minimum else target.limit - p
-    ok = margin >= 0.0
-    word = "minimum" if minimum else "maximum"
-    required = f"P {'>=' if minimum else '<='} {_parameter(target.limit)} (C = {_trim(target.constant, 2)})"
-    relation = "meets" if ok else ("below" if minimum else "above")
-    msg = (
-        f"{target.at} tempering parameter {_parameter(p)}, {relation} the {word} {_parameter(target.limit)} "
-        f"(P = T[K] (C + log10 t[h]), C = {_trim(target.constant, 2)})"
-    )
-    return _make(
-        target, ok, required, f"P {_parameter(p)}", (margin, "", _parameter(margin, signed=True)), msg
-    )
+    margin = p - target.limit if target.kind == "temper_parameter_min" else target.limit - p
+    facts = {"limit": target.limit, "value": p, "constant": target.constant}
+    return _make(target, margin >= 0.0, (margin, ""), facts)
 
 
 def _check(target: Target, t: FloatArray, idx: NDArray[np.intp], trace: Trace) -> Check:
     if target.kind == "max_difference":
-        return _difference(target, trace.core_c[idx], _location(trace, target.at)[idx])
+        return _difference(target, t, trace.core_c[idx], _location(trace, target.at)[idx])
     temp = _location(trace, target.at)[idx]
     if target.kind == "hold_above":
         return _hold(target, t, temp)
     if target.kind == "stay_below":
-        return _stay(target, temp)
+        return _stay(target, t, temp)
     if target.kind == "fall_below":
         return _fall(target, t, temp)
     return _temper(target, t, temp)

@@ -11,12 +11,14 @@ import pytest
 from workers.targets import (
     Target,
     evaluate,
+    facts_texts,
     first_below,
     format_duration,
     longest_run_above,
     tempering_parameter,
 )
 from workers.thermal import Trace
+from workers.wording import Texts
 
 KELVIN = 273.15
 
@@ -103,7 +105,7 @@ def test_stay_below_uses_the_peak_within_the_step() -> None:
     over = evaluate(Target("s0", 0, "stay_below", "surface", 900.0), tr)
     assert not over.passed
     assert over.margin == "-5 K"
-    assert over.message == "surface peaked at 905 degC, 5 K over the 900 degC limit"
+    assert over.message == "surface peaked at 905 degC at 100 s into s0, 5 K over the 900 degC limit"
     # step 1 includes its start sample (905 at 100 s is the end of step 0 and the start of step 1)
     inside = evaluate(Target("s1", 1, "stay_below", "surface", 910.0), tr)
     assert inside.passed and inside.margin_value == pytest.approx(5.0)
@@ -127,13 +129,24 @@ def test_fall_below_already_below_at_the_step_start() -> None:
     assert first_below(np.array([0.0, 10.0]), np.array([150.0, 100.0]), 200.0) == 0.0
 
 
-def test_fall_below_never_reports_how_hot_at_the_deadline() -> None:
+def test_fall_below_never_reports_every_text_at_the_time_allowed() -> None:
+    # 500 degC when the 5 min allowed run out, 400 degC at the step's end: every text says 5 min
     tr = trace([0, 300, 600], [0, 0, 0], [800, 500, 400])
     check = evaluate(Target("s0", 0, "fall_below", "core", 200.0, 300.0), tr)
     assert not check.passed
     assert check.margin_unit == "K"
     assert check.margin_value == pytest.approx(200.0 - 500.0)
-    assert "never fell below 200 degC" in check.message
+    assert check.achieved == "still 500 degC at 5 min, the time allowed"
+    assert check.margin == "-300 K"
+    assert check.message == "core was still 500 degC at 5 min, the time allowed, 300 K above 200 degC"
+    assert "400" not in check.achieved + check.message
+
+
+def test_fall_below_never_in_a_step_shorter_than_the_time_allowed_speaks_of_its_end() -> None:
+    tr = trace([0, 300, 600], [0, 0, 0], [800, 500, 400])
+    check = evaluate(Target("s0", 0, "fall_below", "core", 200.0, 900.0), tr)
+    assert check.achieved == "still 400 degC at the end of s0 (10 min), before the 15 min allowed"
+    assert check.margin_value == pytest.approx(-200.0) and "400 degC at the end of s0" in check.message
 
 
 def test_max_difference_takes_the_absolute_largest_either_way() -> None:
@@ -141,9 +154,10 @@ def test_max_difference_takes_the_absolute_largest_either_way() -> None:
     tr = trace([0, 1, 2, 3], [0, 0, 0, 0], [20, 500, 800, 600], surface=[140, 600, 800, 300])
     check = evaluate(Target("s0", 0, "max_difference", "surface", 250.0), tr)
     assert not check.passed
-    assert check.achieved == "300 K at most"
+    assert check.required == "core-to-surface difference <= 250 K"
+    assert check.achieved == "core-to-surface difference up to 300 K, at 3 s into s0"
     assert check.margin_value == pytest.approx(-50.0)
-    assert check.message == "core-surface difference reached 300 K, over the 250 K limit"
+    assert check.message == "core-to-surface difference reached 300 K at 3 s into s0, over the 250 K limit"
 
 
 def test_corner_needs_a_corner() -> None:
@@ -203,3 +217,27 @@ def test_temper_targets_min_and_max() -> None:
 )
 def test_durations_read_naturally(seconds: float, text: str) -> None:
     assert format_duration(seconds) == text
+
+
+# -- the same outcome in degF ---------------------------------------------------------------------------
+
+
+def test_every_text_follows_the_readers_temperature_unit() -> None:
+    tr = trace([0, 300, 600], [0, 0, 0], [800, 500, 400], surface=[700, 400, 300])
+    fall = evaluate(Target("s0", 0, "fall_below", "core", 200.0, 300.0), tr)
+    texts = facts_texts(fall.flag_dict(), "degF")
+    # 200 degC = 392 degF, 500 degC = 932 degF, a 300 K gap is 540 degF (by definition of the scales)
+    assert texts.required == "< 392 degF within 5 min"
+    assert texts.achieved == "still 932 degF at 5 min, the time allowed"
+    assert texts.margin == "-540 degF"
+    assert "degC" not in texts.required + texts.achieved + texts.margin + texts.message
+    gap = evaluate(Target("s0", 0, "max_difference", "surface", 50.0), tr)
+    assert facts_texts(gap.as_dict(), "degF").required == "core-to-surface difference <= 90 degF"
+    assert facts_texts(gap.as_dict(), "degC") == Texts(gap.required, gap.achieved, gap.margin, gap.message)
+
+
+def test_a_result_stored_without_facts_keeps_its_own_texts() -> None:
+    tr = trace([0, 300, 600], [0, 0, 0], [800, 500, 400])
+    body = evaluate(Target("s0", 0, "stay_below", "core", 900.0), tr).flag_dict()
+    del body["facts"]
+    assert facts_texts(body, "degF").required == "<= 900 degC"

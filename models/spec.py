@@ -9,7 +9,7 @@ wrong, so one pass reports every problem.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from typing import Any
+from typing import Any, Literal
 
 from models import limits, units
 from models.base import Loc, RuleProblem, SpecModel, as_raw
@@ -156,3 +156,12 @@ class BatchSpec(SpecModel):
     @property
     def total_duration_s(self) -> float:
         return sum(s.duration_s for s in self.schedule)
+
+    @property
+    def temperature_unit(self) -> Literal["degC", "degF"]:
+        """The scale the file writes its temperatures in: degF when most of them are in degF."""
+        texts = [s.ambient for s in self.schedule] + [s.ambient_start or "" for s in self.schedule]
+        texts += [p.initial for p in self.parts]
+        texts += [t.hold_above or t.stay_below or t.fall_below or "" for p in self.parts for t in p.targets]
+        scales = [units.temperature_scale(text) for text in texts if text]
+        return "degF" if scales.count("degF") > len(scales) / 2 else "degC"

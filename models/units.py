@@ -175,6 +175,12 @@ def _parse_temperature(text: str) -> float:
     return temp_c
 
 
+def temperature_scale(text: str) -> str | None:
+    """The scale a valid temperature text is written in: "degC", "degF", "kelvin" or "degR"."""
+    match = _NUMBER.match(text)
+    return None if match is None else _absolute_scale(match["unit"])
+
+
 @lru_cache(maxsize=4096)
 def _parse_delta(text: str) -> float:
     value, unit = _split(text, TEMPERATURE_DELTA)

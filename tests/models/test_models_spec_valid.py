@@ -129,3 +129,15 @@ def test_rules_also_hold_for_models_built_in_code(doc: dict[str, Any]) -> None:
     spec = parse_batch(doc)
     with pytest.raises(ValidationError, match="duplicate part id 'P-101'"):
         BatchSpec(batch="x", schedule=list(spec.schedule), parts=[spec.parts[0], spec.parts[0]])
+
+
+def test_the_files_own_temperature_unit(doc: dict[str, Any]) -> None:
+    assert parse_batch(doc).temperature_unit == "degC"
+    doc["schedule"][0]["ambient"] = "1580 degF"
+    for part in doc["parts"]:
+        part["initial"] = "70 F"
+        for target in part.get("targets", []):
+            for key in ("hold_above", "stay_below", "fall_below"):
+                if key in target:
+                    target[key] = "1500 degF"
+    assert parse_batch(doc).temperature_unit == "degF"

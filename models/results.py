@@ -111,6 +111,8 @@ class SuggestBody(TypedDict):
     limiting_part: str | None
     reason: str | None
     simulations: int
+    method: str  # "exact" (read from one run at an upper bound), "search" (trial durations), "none"
+    how: str  # how it was found, for people
     notice: str
 
 

@@ -21,7 +21,8 @@ from rich.text import Text
 
 from models import BatchSpec, SpecError, load_batch_file
 from models.results import BatchResult, CheckBody
-from workers.jobs import CHUNK_PARTS, NOTICE, run_batch, suggest
+from workers.jobs import CHUNK_PARTS, NOTICE, run_batch
+from workers.suggest import suggest
 
 app = typer.Typer(
     name="soakline",
@@ -166,12 +167,15 @@ def suggest_command(
     """Find the shortest duration of one step at which every part passes every target of that step."""
     batch = _load(file)
     try:
-        with out.status(f"Searching the duration of '{step}' ..."):
+        with out.status(f"Finding the shortest '{step}' ..."):
             answer = suggest(batch, step)
     except SpecError as exc:
         raise _invalid(exc, "--step") from None
     current = batch.step(step).duration
-    if answer["duration_s"] is None:
+    nothing = answer["method"] == "none"
+    if nothing:
+        out.print(f"Nothing to clear: no part has a target in step '{step}'; its duration is free.")
+    elif answer["duration_s"] is None:
         out.print(f"No duration of '{step}' clears every target of that step.")
         out.print(answer["reason"], markup=False)
     else:
@@ -179,12 +183,13 @@ def suggest_command(
             f"Shortest '{step}': [bold]{answer['duration']}[/bold] ({answer['duration_s']:.0f} s; "
             f"the file has {current}). Limiting part: {answer['limiting_part'] or '-'}."
         )
-        out.print(f"Searched with {answer['simulations']} runs of the batch, to about 1 % or 1 min.")
+    if not nothing:
+        out.print(f"How: {answer['how']}; {answer['simulations']} runs of the batch.", markup=False)
     if json_out is not None:
         _write_json(answer, json_out)
         out.print(f"Result JSON: {json_out}")
     _notice()
-    raise typer.Exit(0 if answer["duration_s"] is not None else 1)
+    raise typer.Exit(0 if answer["duration_s"] is not None or nothing else 1)
 
 
 def demo_path() -> Path:

@@ -9,16 +9,14 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import replace
 from typing import Any
 
 import numpy as np
 
 from models import BatchSpec, PartSpec, SpecError, TargetSpec, target_warnings
-from models import limits as _limits
-from models.results import BatchResult, PartResult, StepWindow, SuggestBody, TraceBody, WarningBody
+from models.results import BatchResult, PartResult, StepWindow, TraceBody, WarningBody
 from workers.convert import engine_inputs, to_part, to_step
-from workers.targets import Check, Target, evaluate, format_duration
+from workers.targets import Check, Target, evaluate
 from workers.thermal import PartThermal, Step, Tolerance, Trace, simulate
 
 __all__ = [
@@ -29,7 +27,6 @@ __all__ = [
     "run_batch",
     "run_part",
     "step_windows",
-    "suggest",
     "warnings_json",
 ]
 
@@ -191,161 +188,3 @@ def run_part(batch: BatchSpec, part_id: str, *, tol: Tolerance | None = None) ->
     part = _find_part(batch, part_id)
     trace = _simulate([to_part(part)], [to_step(s) for s in batch.schedule], tol)[0]
     return _part_entry(batch, part, trace, step_windows(batch))
-
-
-# -- the shortest duration of a step ------------------------------------------------------------------
-
-# A longer step helps a hold and a minimum temper; it helps a fall only while the step is shorter than
-# the time allowed (the crossing itself does not move). Every other miss at one duration is a miss at
-# every longer one, so the search stops at once instead of doubling to the limit.
-_HELPED_BY_LONGER = ("hold_above", "temper_parameter_min")
-_MIN_STEP_S = 60.0
-
-
-class _Search:
-    """Evaluates one step's targets at trial durations, re-simulating only what they depend on."""
-
-    def __init__(self, batch: BatchSpec, step: str, tol: Tolerance | None) -> None:
-        self.batch = batch
-        self.step = step
-        self.k = [s.name for s in batch.schedule].index(step)
-        self.parts = [p for p in batch.parts if any(t.step == step for t in p.targets)]
-        self.thermal = [to_part(p) for p in self.parts]
-        self.steps = [to_step(s) for s in batch.schedule[: self.k + 1]]  # later steps cannot matter
-        self.tol = tol
-        self.runs = 0
-
-    def failures(self, duration_s: float) -> list[tuple[str, Check]]:
-        return [(pid, c) for pid, c in self.checks(duration_s) if not c.passed]
-
-    def helped(self, pid: str, check: Check, duration_s: float) -> bool:
-        """Whether a longer step can clear this miss."""
-        if check.target in _HELPED_BY_LONGER:
-            return True
-        if check.target != "fall_below":
-            return False
-        part = next(p for p in self.parts if p.id == pid)
-        return any(
-            t.step == self.step
-            and t.kind == "fall_below"
-            and t.at == check.at
-            and duration_s < (t.within_s or 0.0)
-            for t in part.targets
-        )
-
-    def checks(self, duration_s: float) -> list[tuple[str, Check]]:
-        steps = [*self.steps[:-1], replace(self.steps[-1], duration_s=duration_s)]
-        self.runs += 1
-        traces = _simulate(self.thermal, steps, self.tol)
-        return [
-            (p.id, c)
-            for p, tr in zip(self.parts, traces, strict=True)
-            for c in part_checks(self.batch, p, tr, self.step)
-        ]
-
-
-def _worst(failed: list[tuple[str, Check]]) -> tuple[str, Check]:
-    """The miss to name: a hold short by the most time first, else the first miss."""
-    holds = [f for f in failed if f[1].target == "hold_above"]
-    return min(holds, key=lambda f: f[1].margin_value) if holds else failed[0]
-
-
-def _answer(
-    step: str, duration_s: float | None, limiting: str | None, reason: str | None, runs: int
-) -> SuggestBody:
-    return {
-        "step": step,
-        "duration_s": None if duration_s is None else round(duration_s, 1),
-        "duration": None if duration_s is None else format_duration(duration_s),
-        "limiting_part": limiting,
-        "reason": reason,
-        "simulations": runs,
-        "notice": NOTICE,
-    }
-
-
-def suggest(batch: BatchSpec, step: str, *, tol: Tolerance | None = None) -> SuggestBody:
-    """The shortest duration of ``step`` for which every part passes every target of that step.
-
-    Brackets by doubling from the file's duration (or bisects below it), then bisects to about 1 % or
-    1 min, re-simulating all parts with targets in that step (vectorised) at each trial. When no
-    duration up to the product limit clears the targets, ``duration_s`` is None and ``reason`` says why.
-    """
-    names = [s.name for s in batch.schedule]
-    if step not in names:
-        raise SpecError.single(f"no step named '{step}' in the schedule; steps: {', '.join(names)}", "step")
-    at: dict[float, list[tuple[str, Check]]] = {}  # misses at each trial duration
-    search = _Search(batch, step, tol)
-    if not search.parts:
-        return _answer(step, None, None, f"no part has a target in step '{step}'", 0)
-    holds = [
-        t.for_s or 0.0 for p in search.parts for t in p.targets if t.step == step and t.kind == "hold_above"
-    ]
-    floor_s = max([_MIN_STEP_S, *holds])
-    limit_s = _limits.MAX_STEP_S
-
-    def improvable(d: float) -> list[tuple[str, Check]]:
-        return [f for f in at[d] if search.helped(f[0], f[1], d)]
-
-    def stuck(d: float) -> SuggestBody:
-        pid, c = next(f for f in at[d] if not search.helped(f[0], f[1], d))
-        return _answer(
-            step,
-            None,
-            pid,
-            f"{pid}: {c.message}. A longer '{step}' cannot clear a {c.target} target, so no duration of "
-            f"'{step}' clears every target of that step.",
-            search.runs,
-        )
-
-    # A longer step only helps the misses `helped` names and never clears the others, so: find the shortest
-    # duration at which no helped target misses, then check the others there.
-    hi = batch.step(step).duration_s
-    at[hi] = search.failures(hi)
-    if improvable(hi):
-        lo = hi
-        while improvable(lo):
-            if len(improvable(lo)) < len(at[lo]):
-                return stuck(lo)  # both kinds miss: shorter and longer both fail
-            if lo >= limit_s:
-                pid, c = _worst(improvable(lo))
-                return _answer(
-                    step,
-                    None,
-                    pid,
-                    f"{pid}: {c.message} even with '{step}' at "
-                    f"{format_duration(lo)}, the longest step allowed",
-                    search.runs,
-                )
-            hi = min(2.0 * lo, limit_s)
-            at[hi] = search.failures(hi)
-            if not improvable(hi):
-                break
-            lo = hi
-    else:
-        lo = floor_s
-        if lo < hi:
-            at[lo] = search.failures(lo)
-            if not improvable(lo):
-                hi = lo
-    while hi - lo > max(0.01 * hi, 60.0):
-        mid = float(math.ceil(0.5 * (lo + hi)))
-        at[mid] = search.failures(mid)
-        if improvable(mid):
-            lo = mid
-        else:
-            hi = mid
-    if at[hi]:
-        return stuck(hi)
-    limiting = _worst(improvable(lo))[0] if lo in at and improvable(lo) else None
-    if limiting is None:
-        limiting = next(
-            (
-                p.id
-                for p in search.parts
-                for t in p.targets
-                if t.step == step and t.kind == "hold_above" and (t.for_s or 0.0) >= floor_s
-            ),
-            None,
-        )
-    return _answer(step, hi, limiting, None, search.runs)

@@ -46,9 +46,12 @@ __all__ = [
     "Target",
     "evaluate",
     "facts_texts",
+    "first_above",
     "first_below",
+    "first_reaching",
     "format_duration",
     "format_temperature",
+    "hold_done_at",
     "hold_time",
     "longest_run_above",
     "max_difference",
@@ -56,6 +59,7 @@ __all__ = [
     "peak",
     "step_window",
     "tempering_parameter",
+    "tempering_parameters",
 ]
 
 
@@ -124,13 +128,63 @@ def first_below(t: FloatArray, temp: FloatArray, limit_c: float) -> float | None
     return float(t[i - 1] + (limit_c - a) / (b - a) * (t[i] - t[i - 1]))
 
 
+def first_above(t: FloatArray, values: FloatArray, limit: float) -> float | None:
+    """First time ``values`` exceed ``limit`` (linear crossing); None if they never do."""
+    return first_below(t, -np.asarray(values, dtype=float), -limit)
+
+
+def first_reaching(t: FloatArray, values: FloatArray, limit: float) -> float | None:
+    """First time ``values`` reach ``limit`` or more (linear crossing); None if they never do."""
+    up = np.nonzero(np.asarray(values) >= limit)[0]
+    if up.size == 0:
+        return None
+    i = int(up[0])
+    if i == 0:
+        return float(t[0])
+    a, b = values[i - 1], values[i]
+    return float(t[i - 1] + (limit - a) / (b - a) * (t[i] - t[i - 1]))
+
+
+def hold_done_at(t: FloatArray, temp: FloatArray, limit_c: float, need_s: float) -> float | None:
+    """Earliest time by which the location has been at or above ``limit_c`` for ``need_s`` without a
+    break (None: not within ``t``): a step at least this long passes the hold.
+
+    Same crossings as ``longest_run_above``: linear between samples.
+    """
+    run_start: float | None = None
+    for i in range(len(t) - 1):
+        t0, t1, a, b = t[i], t[i + 1], temp[i], temp[i + 1]
+        up0, up1 = a >= limit_c, b >= limit_c
+        cross = t0 + (limit_c - a) / (b - a) * (t1 - t0) if up0 != up1 else t0
+        if up0 and run_start is None:
+            run_start = t0
+        elif up1 and not up0:
+            run_start = cross
+        end = t1 if up1 else cross
+        if run_start is not None and end - run_start >= need_s:
+            return float(run_start + need_s)
+        if not up1:
+            run_start = None
+    if len(t) and run_start is None and need_s <= 0.0 and temp[-1] >= limit_c:
+        return float(t[-1])
+    return None
+
+
 def max_difference(core: FloatArray, other: FloatArray) -> float:
     """Largest |core - other| (K) over the samples."""
     return float(np.max(np.abs(core - other)))
 
 
 def tempering_parameter(t: FloatArray, temp_c: FloatArray, constant: float) -> float:
-    """Hollomon-Jaffe P of a non-isothermal history (T in K, t in h), by equivalent-time summation.
+    """Hollomon-Jaffe P of the whole history (T in K, t in h); see ``tempering_parameters``."""
+    if len(t) < 2 or not np.any(np.diff(t) > 0.0):
+        raise ValueError("a tempering parameter needs a history of positive length")
+    return float(tempering_parameters(t, temp_c, constant)[-1])
+
+
+def tempering_parameters(t: FloatArray, temp_c: FloatArray, constant: float) -> FloatArray:
+    """Hollomon-Jaffe P (T in K, t in h) of the history up to each sample (0 at the first), by
+    equivalent-time summation: never falls as the history grows.
 
     State: log10 of the equivalent time at a reference temperature (the history's peak). For each
     sample interval at its mean temperature T_i, the state converts to the time t_i at T_i giving the
@@ -139,19 +193,18 @@ def tempering_parameter(t: FloatArray, temp_c: FloatArray, constant: float) -> f
     """
     t_ref = float(np.max(temp_c)) + KELVIN
     log_ref = -math.inf  # nothing accumulated yet
+    out = np.zeros(len(t))
     for i in range(len(t) - 1):
         dt_h = (t[i + 1] - t[i]) / HOUR_S
-        if dt_h <= 0.0:
-            continue
-        t_i = 0.5 * (temp_c[i] + temp_c[i + 1]) + KELVIN
-        log_here = -math.inf if log_ref == -math.inf else (t_ref / t_i) * (constant + log_ref) - constant
-        log_dt = math.log10(dt_h)
-        hi, lo = max(log_here, log_dt), min(log_here, log_dt)
-        log_sum = hi + math.log10(1.0 + 10.0 ** (lo - hi)) if lo > -math.inf else hi
-        log_ref = (t_i / t_ref) * (constant + log_sum) - constant
-    if log_ref == -math.inf:
-        raise ValueError("a tempering parameter needs a history of positive length")
-    return t_ref * (constant + log_ref)
+        if dt_h > 0.0:
+            t_i = 0.5 * (temp_c[i] + temp_c[i + 1]) + KELVIN
+            log_here = -math.inf if log_ref == -math.inf else (t_ref / t_i) * (constant + log_ref) - constant
+            log_dt = math.log10(dt_h)
+            hi, lo = max(log_here, log_dt), min(log_here, log_dt)
+            log_sum = hi + math.log10(1.0 + 10.0 ** (lo - hi)) if lo > -math.inf else hi
+            log_ref = (t_i / t_ref) * (constant + log_sum) - constant
+        out[i + 1] = 0.0 if log_ref == -math.inf else t_ref * (constant + log_ref)
+    return out
 
 
 # -- targets and their checks -------------------------------------------------------------------------

@@ -189,7 +189,12 @@ class ComparePublic(_Out):
 class SuggestPublic(_Out):
     step: str
     duration_s: float | None
+    duration: str | None = None
     limiting_part: str | None
+    reason: str | None = None
+    simulations: int = 0
+    method: str = "search"
+    how: str = ""
 
 
 class HealthPublic(_Out):

@@ -48,8 +48,8 @@ from scheduler.api.schemas import (
     PartFlags,
     PartSummary,
 )
-from workers.jobs import suggest as suggest_step
 from workers.runner import load_batch_spec
+from workers.suggest import suggest as suggest_step
 
 __all__ = [
     "add_disposition",

@@ -108,6 +108,19 @@ def test_suggest_prints_and_writes_the_duration(write: Write, tmp_path: Path) ->
     assert set(doc) >= {"step", "duration_s", "limiting_part"}
     assert doc["step"] == "heat" and doc["limiting_part"] == "thick" and doc["duration_s"] > 7200
     assert "Shortest 'heat'" in res.stdout
+    assert doc["duration_s"] % 60 == 0 and doc["method"] == "exact"
+    assert "How: exact:" in res.stdout and "confirmed by a run at" in res.stdout
+
+
+def test_suggest_on_a_step_without_targets_has_nothing_to_clear_and_exits_0(write: Write) -> None:
+    text = PASSING.replace(
+        '  - {name: quench, duration: "20 min", ambient: "60 degC", htc: "2000 W/m^2/K"}',
+        '  - {name: quench, duration: "20 min", ambient: "60 degC", htc: "2000 W/m^2/K"}\n'
+        '  - {name: cool, duration: "1 h", ambient: "20 degC", htc: "10 W/m^2/K"}',
+    )
+    res = runner.invoke(app, ["suggest", str(write(text)), "--step", "cool"])
+    assert res.exit_code == 0, res.output
+    assert "Nothing to clear" in res.stdout and "No duration" not in res.stdout
 
 
 def test_suggest_with_an_unknown_step_exits_2(write: Write) -> None:

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from models import parse_batch, parse_time, with_durations
-from workers.jobs import suggest
+from workers.suggest import suggest
 from workers.targets import format_duration
 
 # Seconds from a second to the 30-day product limit, through every branch of the printed form

@@ -9,7 +9,8 @@ import pytest
 
 from models import SpecError, parse_batch, with_durations
 from workers.convert import engine_inputs
-from workers.jobs import NOTICE, run_batch, run_part, suggest
+from workers.jobs import NOTICE, run_batch, run_part
+from workers.suggest import suggest
 
 CONTRACT_FLAG_KEYS = {"step", "at", "target", "required", "achieved", "message"}
 

@@ -11,8 +11,10 @@ How it is found:
   ``hold_done_at``), a fall from when the point crosses below, a minimum temper from when the
   parameter reaches it; a stay-below, a largest difference or a maximum temper fail from when they are
   first exceeded. The answer is the largest lower bound (at least a minute), rounded up to a whole
-  minute, and confirmed by one run at that duration, sampled as every run is. D starts at twice the
-  longer of the file's duration and the longest hold and doubles while a lower bound lies beyond it.
+  minute, and confirmed by one run at that duration, sampled as every run is, of the parts whose bound
+  lies near the answer (parts are computed independently; the others have minutes to spare). D starts
+  at twice the longer of the file's duration and the longest hold and doubles while a lower bound lies
+  beyond it.
 - search, for a ramped step (its ambient at time t depends on the step's length) or when the exact
   answer does not confirm: the targets are evaluated at trial durations, bracketed by doubling, then
   bisected on whole minutes.
@@ -71,7 +73,9 @@ class _Runs:
         self.steps = [to_step(s) for s in batch.schedule[: self.k + 1]]
         self.count = 0
 
-    def traces(self, duration_s: float, samples: int = SAMPLES_PER_STEP) -> list[Trace]:
+    def traces(
+        self, duration_s: float, samples: int = SAMPLES_PER_STEP, only: set[str] | None = None
+    ) -> list[Trace]:
         last = self.steps[-1]
         steps = [
             *self.steps[:-1],
@@ -85,17 +89,19 @@ class _Runs:
             ),
         ]
         self.count += 1
-        return simulate(self.thermal, steps, samples_per_step=samples, tol=self.tol)
+        chosen = [i for i, p in enumerate(self.parts) if only is None or p.id in only]
+        return simulate([self.thermal[i] for i in chosen], steps, samples_per_step=samples, tol=self.tol)
 
-    def checks(self, duration_s: float) -> list[tuple[str, Check]]:
+    def checks(self, duration_s: float, only: set[str] | None = None) -> list[tuple[str, Check]]:
+        parts = [p for p in self.parts if only is None or p.id in only]
         return [
             (p.id, c)
-            for p, tr in zip(self.parts, self.traces(duration_s), strict=True)
+            for p, tr in zip(parts, self.traces(duration_s, only=only), strict=True)
             for c in part_checks(self.batch, p, tr, self.step)
         ]
 
-    def failures(self, duration_s: float) -> list[tuple[str, Check]]:
-        return [(pid, c) for pid, c in self.checks(duration_s) if not c.passed]
+    def failures(self, duration_s: float, only: set[str] | None = None) -> list[tuple[str, Check]]:
+        return [(pid, c) for pid, c in self.checks(duration_s, only) if not c.passed]
 
 
 def _answer(
@@ -255,7 +261,16 @@ def _exact(runs: _Runs, step: str) -> SuggestBody | None:
             float(math.ceil(exact_s)),
             "rounded up to a whole second (a minute more breaks a limit)",
         )
-    if runs.failures(answer_s):
+    # Parts are computed independently: only those with a bound near the answer can miss at it, as a
+    # run samples the step (120 samples, a linear crossing between them), so only they are run again.
+    near = max(2.0 * MINUTE_S, 3.0 * answer_s / SAMPLES_PER_STEP)
+    close = {
+        b.part
+        for b in bounds
+        if (b.lower is not None and b.lower > answer_s - near)
+        or (b.upper is not None and b.upper < answer_s + near)
+    }
+    if close and runs.failures(answer_s, close):
         return None
     return _answer(
         step,
@@ -265,7 +280,8 @@ def _exact(runs: _Runs, step: str) -> SuggestBody | None:
         runs.count,
         "exact",
         f"exact: {exact_s:.0f} s read from one run with '{step}' at {format_duration(horizon)}, "
-        f"{rounding} and confirmed by a run at {format_duration(answer_s)}",
+        f"{rounding} and confirmed by a run at {format_duration(answer_s)} of the "
+        f"{len(close)} part(s) whose bound lies within {format_duration(near)} of it",
     )
 
 

@@ -59,6 +59,7 @@ def test_the_exact_answer_is_the_shortest_whole_minute_that_passes(batch_doc: di
     assert answer["method"] == "exact" and answer["simulations"] == 2  # the upper bound, the confirmation
     assert answer["limiting_part"] == "thick"
     assert "exact:" in answer["how"] and "confirmed by a run at" in answer["how"]
+    assert "of the 1 part(s)" in answer["how"]  # the thin plate has an hour to spare: not run again
     assert _passes(batch_doc, "heat", d)
     assert not _passes(batch_doc, "heat", d - 60.0)  # a minute less misses: it is exact to the minute
     # the figure it read, before rounding, lies in the last minute

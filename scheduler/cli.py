@@ -1,14 +1,17 @@
 """The ``soakline`` command line: run a batch file on this machine, suggest a soak, run the demo.
 
 Exit status (the contract): 0 every part passes, 1 some part is flagged (``suggest``: no duration
-clears the step's targets), 2 the input is invalid (every problem on its own line with its field path).
-The service commands (serve, worker, ...) are mounted from ``scheduler.service_cli`` when installed.
+clears the step's targets; nothing to clear is 0), 2 the input is invalid (every problem on its own line
+with its field path). Each command's ``--help`` says its own. Temperatures in the tables follow
+``--units``, by default the batch file's own scale. The service commands (serve, worker, ...) are
+mounted from ``scheduler.service_cli`` when installed.
 """
 
 from __future__ import annotations
 
 import json
 from collections.abc import Mapping
+from enum import StrEnum
 from importlib import resources
 from pathlib import Path
 from typing import Annotated
@@ -23,6 +26,8 @@ from models import BatchSpec, SpecError, load_batch_file
 from models.results import BatchResult, CheckBody
 from workers.jobs import CHUNK_PARTS, NOTICE, run_batch
 from workers.suggest import suggest
+from workers.targets import facts_texts
+from workers.wording import TempUnit
 
 app = typer.Typer(
     name="soakline",
@@ -46,7 +51,10 @@ err = _console(stderr=True)
 
 @app.callback()
 def _start() -> None:
-    """Predict core and surface temperatures of steel parts through a furnace batch and check targets."""
+    """Predict core and surface temperatures of steel parts through a furnace batch and check targets.
+
+    Each command's --help gives its exit status.
+    """
     global out, err  # consoles follow the streams of this invocation (a terminal, a pipe, a test runner)
     out, err = _console(), _console(stderr=True)
 
@@ -54,8 +62,23 @@ def _start() -> None:
 PROGRESS_FROM_PARTS = 50
 DEMO_JSON = "soakline-demo.json"
 
+
+class UnitChoice(StrEnum):
+    DEG_C = "degC"
+    DEG_F = "degF"
+
+
 FileArg = Annotated[Path, typer.Argument(help="Batch file (YAML, or JSON when it ends in .json).")]
 JsonOpt = Annotated[Path | None, typer.Option("--json", help="Where to write the result JSON.")]
+UnitsOpt = Annotated[
+    UnitChoice | None,
+    typer.Option(
+        "--units",
+        help="Temperatures in the table: degC or degF (default: the scale the batch file writes in). "
+        "The JSON keeps degC.",
+        case_sensitive=False,
+    ),
+]
 
 
 # -- shared pieces ------------------------------------------------------------------------------------
@@ -103,59 +126,89 @@ def _compute(batch: BatchSpec) -> BatchResult:
         return run_batch(batch, report, chunk=min(CHUNK_PARTS, max(25, len(batch.parts) // 10)))
 
 
-def _result_table(result: BatchResult) -> Table:
+def _part_cell(part: Mapping[str, object]) -> Text:
+    cell = Text(str(part["id"]), style="bold")
+    cell.append(f"\n{part['size']}\n{part['material']}", style="dim")
+    return cell
+
+
+def _result_table(result: BatchResult, unit: TempUnit) -> Table:
+    """One row per target; the part (id, size, steel) in the first column of its first row. Five columns
+    that stay readable in an 80-column terminal."""
     table = Table(title=f"Batch: {result['batch']}", title_justify="left", show_lines=False)
-    columns = ("Part", "Shape and size", "Steel", "Step", "Target", "Predicted", "Result", "Margin")
-    for name in columns:
-        table.add_column(
-            name, justify="right" if name == "Margin" else "left", no_wrap=name in ("Part", "Result")
-        )
+    table.add_column("Part", no_wrap=True)
+    table.add_column("Step")
+    table.add_column("Target")
+    table.add_column("Predicted")
+    table.add_column("Result")
     for part in result["parts"]:
         checks: list[CheckBody | None] = [*part["checks"]] or [None]
         for i, check in enumerate(checks):
-            cells = [part["id"], part["size"], part["material"]] if i == 0 else ["", "", ""]
+            first = _part_cell(part) if i == 0 else ""
             last = i == len(checks) - 1
             if check is None:
-                table.add_row(*cells, "-", "no targets", "", "", "", end_section=last)
+                table.add_row(first, "-", "no targets", "", "", end_section=last)
                 continue
+            texts = facts_texts(check, unit)
             passed = bool(check["passed"])
+            verdict = Text("pass ", style="green") if passed else Text("FLAG ", style="bold red")
+            verdict.append(texts.margin, style="" if passed else "red")
             table.add_row(
-                *cells,
+                first,
                 check["step"],
-                f"{check['at']} {check['required']}",
-                check["achieved"],
-                Text("pass", style="green") if passed else Text("FLAG", style="bold red"),
-                Text(check["margin"], style="" if passed else "red"),
+                f"{check['at']} {texts.required}" if check["target"] != "max_difference" else texts.required,
+                texts.achieved,
+                verdict,
                 end_section=last,
             )
     return table
 
 
-def _report(result: BatchResult, json_path: Path) -> int:
-    out.print(_result_table(result))
+def _warnings(result: BatchResult) -> None:
+    for warning in result.get("warnings", []):
+        out.print("[yellow]Warning[/yellow] ", end="")
+        out.print(f"{warning['path']}: {warning['message']} (computed as written)", markup=False)
+
+
+def _report(result: BatchResult, json_path: Path, unit: TempUnit, chosen: bool = True) -> int:
+    _warnings(result)
+    out.print(_result_table(result, unit))
     flagged = [p for p in result["parts"] if p["flagged"]]
     for part in flagged:
         for flag in part["flags"]:
             out.print(f"[bold red]FLAG[/bold red] {part['id']} ({flag['step']}): ", end="")
-            out.print(flag["message"], markup=False)
+            out.print(facts_texts(flag, unit).message, markup=False)
     total = len(result["parts"])
     summary = f"{len(flagged)} of {total} parts flagged" if flagged else f"all {total} parts pass"
-    out.print(f"\n{summary}. Result JSON: {json_path}")
+    where = (
+        f"Result JSON: {json_path}" if chosen else f"Result JSON written to {json_path} (choose with --json)"
+    )
+    out.print(f"\n{summary}. {where}", markup=False)
     _notice()
     return 1 if flagged else 0
+
+
+def _unit(choice: UnitChoice | None, batch: BatchSpec) -> TempUnit:
+    return batch.temperature_unit if choice is None else ("degF" if choice is UnitChoice.DEG_F else "degC")
 
 
 # -- commands -----------------------------------------------------------------------------------------
 
 
 @app.command()
-def run(file: FileArg, json_out: JsonOpt = None) -> None:
-    """Compute every part of a batch file and check its targets (no servers needed)."""
+def run(file: FileArg, json_out: JsonOpt = None, units: UnitsOpt = None) -> None:
+    """Compute every part of a batch file and check its targets (no servers needed).
+
+    The result JSON goes to --json, or to FILE-result.json in the current folder.
+
+    Exit status: 0 every part passes; 1 some part is flagged; 2 the file is invalid (each problem
+    named with its field) or the JSON cannot be written.
+    """
     batch = _load(file)
     result = _compute(batch)
     path = json_out or Path(f"{file.stem}-result.json")
     _write_json(result, path)
-    raise typer.Exit(_report(result, path))
+    raise typer.Exit(_report(result, path, _unit(units, batch), chosen=json_out is not None))
 
 
 @app.command("suggest")
@@ -164,7 +217,14 @@ def suggest_command(
     step: Annotated[str, typer.Option("--step", help="Name of the schedule step to shorten or lengthen.")],
     json_out: JsonOpt = None,
 ) -> None:
-    """Find the shortest duration of one step at which every part passes every target of that step."""
+    """Find the shortest duration of one step at which every part passes every target of that step.
+
+    A whole minute, never short: exact from one run where the step does not ramp, else by trying
+    durations; the output says which.
+
+    Exit status: 0 a duration found, or nothing to clear (no part has a target in the step); 1 no
+    duration clears the step's targets; 2 the file or --step is invalid.
+    """
     batch = _load(file)
     try:
         with out.status(f"Finding the shortest '{step}' ..."):
@@ -198,15 +258,19 @@ def demo_path() -> Path:
 
 
 @app.command()
-def demo(json_out: JsonOpt = None) -> None:
-    """Run the bundled demo batch and show its table."""
+def demo(json_out: JsonOpt = None, units: UnitsOpt = None) -> None:
+    """Run the bundled demo batch and show its table.
+
+    Exit status: 0, flagged parts or not (the demo shows flags on purpose); 2 the JSON cannot be
+    written.
+    """
     file = demo_path()
     out.print(f"Demo batch file: {file}")
     batch = _load(file)
     result = _compute(batch)
     path = json_out or Path(DEMO_JSON)
     _write_json(result, path)
-    _report(result, path)
+    _report(result, path, _unit(units, batch), chosen=json_out is not None)
     raise typer.Exit(0)
 
 

@@ -2,8 +2,9 @@
 
 :func:`register` adds them to the main Typer app. Client verbs (``submit``, ``status``, ``flags``,
 ``rerun``, ``compare``, ``review``) talk to the API at ``--api`` (default ``SOAKLINE_API_URL``) with
-the token in ``SOAKLINE_TOKEN``. Exit status: 0 done, 1 some part flagged (``submit --wait``), 2 invalid
-input (every problem printed with its field), 3 the API or database could not be reached or refused.
+the token in ``SOAKLINE_TOKEN``. Exit status: 0 done, 1 some part flagged (``submit --wait``,
+``rerun --wait``), 2 invalid input (every problem printed with its field, a rerun's at its ``--set``), 3
+the API or database could not be reached or refused. Each command's ``--help`` says its own.
 """
 
 from __future__ import annotations
@@ -11,7 +12,9 @@ from __future__ import annotations
 import json
 import sys
 import time
+from collections.abc import Callable
 from datetime import UTC, datetime, timedelta
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, Any, NoReturn
 
@@ -23,17 +26,22 @@ from rich.markup import escape
 from rich.table import Table
 
 from models import parse_time
+from models.results import FlagBody
 from models.settings import Settings, SettingsError, load_settings
 from models.store import DatabaseUnavailable, migrate, session_factory, session_scope, wait_for_database
 from models.tables import Decision, Role
 from scheduler.api.auth import create_token, list_tokens, revoke_token
+from workers.targets import facts_texts
+from workers.wording import TempUnit
 
 __all__ = ["register"]
 
 out = Console()
 err = Console(stderr=True)
 
-ApiOpt = Annotated[str | None, typer.Option("--api", help="API base URL [default: SOAKLINE_API_URL].")]
+ApiOpt = Annotated[
+    str | None, typer.Option("--api", help="API base URL (default: the SOAKLINE_API_URL setting).")
+]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print the API's JSON instead of a table.")]
 SAFETY = (
     "Predictions are planning estimates: site procedures, heat-treatment and pyrometry specifications "
@@ -80,7 +88,10 @@ def serve(
     host: Annotated[str, typer.Option(help="Address to listen on.")] = "127.0.0.1",
     port: Annotated[int, typer.Option(help="TCP port.", min=1, max=65535)] = 8000,
 ) -> None:
-    """Run the HTTP API. Without SOAKLINE_BROKER_URL it also runs the jobs itself."""
+    """Run the HTTP API and the review pages. Without SOAKLINE_BROKER_URL it also runs the jobs itself.
+
+    Exit status: 0 stopped; 2 a setting is invalid; 3 the database cannot be reached.
+    """
     # Imported here, as is Celery below: `soakline run` and the client verbs never load the servers.
     import uvicorn
 
@@ -92,7 +103,11 @@ def serve(
     mode = (
         f"Celery workers via {settings.broker_url}" if settings.broker_url else "in-process jobs (no broker)"
     )
-    err.print(f"soakline API on http://{host}:{port} ({mode}); OpenAPI at /docs", highlight=False)
+    err.print(
+        f"soakline API on http://{host}:{port} ({mode}); API docs at /docs, OpenAPI schema at /openapi.json, "
+        "review pages at /ui",
+        highlight=False,
+    )
     uvicorn.run(create_app(settings), host=host, port=port, log_level="info")
 
 
@@ -100,7 +115,11 @@ def worker(
     concurrency: Annotated[int, typer.Option("--concurrency", "-c", min=1, help="Worker processes.")] = 2,
     loglevel: Annotated[str, typer.Option(help="Celery log level.")] = "info",
 ) -> None:
-    """Run a Celery worker (same as `celery -A workers worker`); needs SOAKLINE_BROKER_URL."""
+    """Run a Celery worker (same as `celery -A workers worker`); needs SOAKLINE_BROKER_URL.
+
+    Exit status: 0 stopped; 2 a setting is invalid or SOAKLINE_BROKER_URL is not set; 3 the database
+    cannot be reached.
+    """
     settings = _settings()
     if settings.broker_url is None:
         _fail("SOAKLINE_BROKER_URL is not set; a worker needs a broker such as redis://127.0.0.1:6379/0", 2)
@@ -137,7 +156,10 @@ def token_create(
         typer.Option(help="When it stops working: a date (2027-03-31, UTC) or a duration ('90 d')."),
     ] = None,
 ) -> None:
-    """Create an API token; it is printed once, as the last word, and only its hash is stored."""
+    """Create an API token; it is printed once, as the last word, and only its hash is stored.
+
+    Exit status: 0 created; 2 a setting or the name is invalid; 3 the database cannot be reached.
+    """
     settings = _settings()
     expires_at = _expiry(expires)
     _prepare_database(settings)
@@ -196,7 +218,11 @@ def _client(api: str | None) -> httpx.Client:
     return httpx.Client(base_url=base, headers=headers, timeout=60.0)
 
 
-def _call(client: httpx.Client, method: str, url: str, **kwargs: Any) -> Any:
+def _call(
+    client: httpx.Client, method: str, url: str, *, names: Callable[[str], str] | None = None, **kwargs: Any
+) -> Any:
+    """The API's JSON answer; exits 2 on invalid input (each problem at its path, or at the option
+    ``names`` gives it) and 3 when the API cannot be reached or refuses."""
     try:
         response = client.request(method, url, **kwargs)
     except httpx.HTTPError as exc:
@@ -205,7 +231,9 @@ def _call(client: httpx.Client, method: str, url: str, **kwargs: Any) -> Any:
         body = response.json()
         err.print(f"[red]invalid:[/red] {body.get('detail', '')}", highlight=False)
         for problem in body.get("problems", []):
-            err.print(f"  {problem.get('path') or '(file)'}: {problem.get('message')}", highlight=False)
+            path = str(problem.get("path") or "")
+            shown = names(path) if names is not None else (path or "(file)")
+            err.print(f"  {shown}: {problem.get('message')}", highlight=False, markup=False)
         raise typer.Exit(2)
     if response.status_code >= 400:
         try:
@@ -263,7 +291,12 @@ def submit(
     wait: Annotated[bool, typer.Option(help="Wait for the batch to finish and show it.")] = False,
     timeout: Annotated[float, typer.Option(help="Seconds to wait with --wait.")] = 3600.0,
 ) -> None:
-    """Submit a batch file to the API (planner token)."""
+    """Submit a batch file to the API (planner token).
+
+    Exit status: 0 submitted (with --wait: computed, no part flagged); 1 with --wait, some part is
+    flagged; 2 the file is invalid or no token is set; 3 the API cannot be reached, refuses, or --wait
+    times out.
+    """
     doc = _read_batch_file(file)
     with _client(api) as client:
         created = _call(client, "POST", "/batches", json=doc)
@@ -280,7 +313,10 @@ def status(
     api: ApiOpt = None,
     as_json: JsonOpt = False,
 ) -> None:
-    """Show a batch: its status and each part's flags."""
+    """Show a batch: its status and each part's flags.
+
+    Exit status: 0 shown; 2 no token is set; 3 the API cannot be reached or refuses (an unknown batch).
+    """
     with _client(api) as client:
         body = _call(client, "GET", f"/batches/{batch_id}")
     if as_json:
@@ -289,13 +325,50 @@ def status(
         _print_batch(body)
 
 
+class UnitChoice(StrEnum):
+    DEG_C = "degC"
+    DEG_F = "degF"
+
+
+UnitsOpt = Annotated[
+    UnitChoice, typer.Option("--units", help="Temperatures in the texts: degC or degF.", case_sensitive=False)
+]
+
+
+def _flag_cells(f: dict[str, Any], unit: TempUnit) -> tuple[str, str, str, str]:
+    body = FlagBody(
+        step=f["step"],
+        at=f["at"],
+        target=f["target"],
+        required=str(f.get("required") or ""),
+        achieved=str(f.get("achieved") or ""),
+        margin=str(f.get("margin") or ""),
+        margin_value=float(f.get("margin_value") or 0.0),
+        margin_unit=str(f.get("margin_unit") or ""),
+        message=str(f.get("message") or ""),
+    )
+    if f.get("facts"):
+        body["facts"] = f["facts"]
+    texts = facts_texts(body, unit)
+    return (
+        f"#{f['id']}\n{f['status']}",
+        f"batch {f['batch']}\n{f['part']}",
+        f"{f['step']}, {f['at']}\n{f['target'].replace('_', ' ')}\nmargin {texts.margin}",
+        texts.message,
+    )
+
+
 def flags(
     api: ApiOpt = None,
     batch: Annotated[int | None, typer.Option(help="Only this batch.")] = None,
     state: Annotated[str, typer.Option("--status", help="open, dispositioned or all.")] = "open",
     as_json: JsonOpt = False,
+    units: UnitsOpt = UnitChoice.DEG_C,
 ) -> None:
-    """List flags across batches (open ones by default)."""
+    """List flags across batches (open ones by default): one row per flag, readable at 80 columns.
+
+    Exit status: 0 listed; 2 invalid input or no token is set; 3 the API cannot be reached or refuses.
+    """
     params: dict[str, Any] = {"status": state, "limit": 1000}
     if batch is not None:
         params["batch"] = batch
@@ -304,14 +377,14 @@ def flags(
     if as_json:
         out.print_json(data=body)
         return
-    table = Table(title=f"{body['total']} {state} flag(s)")
-    for col in ("flag", "batch", "part", "step", "at", "target", "margin", "status", "message"):
-        table.add_column(col)
+    table = Table(title=f"{body['total']} {state} flag(s)", title_justify="left", show_lines=True)
+    table.add_column("Flag", no_wrap=True)
+    table.add_column("Where", no_wrap=True)
+    table.add_column("Target")
+    table.add_column("Finding", ratio=1)
+    unit: TempUnit = "degF" if units is UnitChoice.DEG_F else "degC"
     for f in body["items"]:
-        table.add_row(
-            str(f["id"]), str(f["batch"]), f["part"], f["step"], f["at"], f["target"],
-            str(f.get("margin", "")), f["status"], str(f.get("message") or ""),
-        )  # fmt: skip
+        table.add_row(*_flag_cells(f, unit))
     out.print(table)
 
 
@@ -325,23 +398,47 @@ def _durations(pairs: list[str]) -> dict[str, str]:
     return durations
 
 
+def _set_option(durations: dict[str, str]) -> Callable[[str], str]:
+    """An API problem path (``durations.soak``) as the option the user typed (``--set soak='2 h 30'``)."""
+
+    def name(path: str) -> str:
+        step = path.removeprefix("durations").removeprefix(".")
+        return f"--set {step}={durations[step]!r}" if step in durations else "--set"
+
+    return name
+
+
 def rerun(
     batch_id: Annotated[int, typer.Argument(help="Batch to rerun.")],
     set_: Annotated[
-        list[str], typer.Option("--set", help="STEP=DURATION, e.g. --set soak='4 h'; repeatable.")
+        list[str],
+        typer.Option("--set", help="STEP=DURATION, e.g. --set soak='2 h 30 min'; repeatable."),
     ],
     api: ApiOpt = None,
     wait: Annotated[bool, typer.Option(help="Wait for the rerun and compare it with the original.")] = False,
     timeout: Annotated[float, typer.Option(help="Seconds to wait with --wait.")] = 3600.0,
 ) -> None:
-    """Rerun a batch with new step durations (planner token); prints the new batch id."""
+    """Rerun a batch with new step durations (planner token); prints the new batch id.
+
+    Exit status: 0 started (with --wait: computed, no part flagged); 1 with --wait, some part of the
+    rerun is flagged; 2 a --set value is invalid (named) or no token is set; 3 the API cannot be
+    reached, refuses, or --wait times out.
+    """
     durations = _durations(set_)
     with _client(api) as client:
-        created = _call(client, "POST", f"/batches/{batch_id}/rerun", json={"durations": durations})
+        created = _call(
+            client,
+            "POST",
+            f"/batches/{batch_id}/rerun",
+            json={"durations": durations},
+            names=_set_option(durations),
+        )
         out.print(f"batch {created['id']} {created['status']} (rerun of {batch_id})", highlight=False)
         if wait:
-            _wait(client, created["id"], timeout)
+            body = _wait(client, created["id"], timeout)
             _print_compare(_call(client, "GET", f"/batches/{batch_id}/compare/{created['id']}"))
+            if body["flagged_count"]:
+                raise typer.Exit(1)
 
 
 def _print_compare(body: dict[str, Any]) -> None:
@@ -361,7 +458,10 @@ def compare(
     api: ApiOpt = None,
     as_json: JsonOpt = False,
 ) -> None:
-    """Per part, flags before and after."""
+    """Per part, flags before and after.
+
+    Exit status: 0 shown; 2 no token is set; 3 the API cannot be reached or refuses (an unknown batch).
+    """
     with _client(api) as client:
         body = _call(client, "GET", f"/batches/{batch_id}/compare/{other_id}")
     if as_json:
@@ -376,7 +476,11 @@ def review(
     comment: Annotated[str, typer.Option(help="Why; kept with your token's name and the time.")],
     api: ApiOpt = None,
 ) -> None:
-    """Record a disposition for a flag (reviewer token)."""
+    """Record a disposition for a flag (reviewer token).
+
+    Exit status: 0 recorded; 2 invalid input or no token is set; 3 the API cannot be reached or refuses
+    (an unknown flag, not a reviewer token).
+    """
     with _client(api) as client:
         body = _call(
             client,

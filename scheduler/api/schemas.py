@@ -143,6 +143,9 @@ class FlagPublic(_Out):
     margin_value: float | None = Field(default=None, description="The margin as a number, in margin_unit.")
     margin_unit: str | None = None
     message: str | None = None
+    facts: dict[str, float | None] | None = Field(
+        default=None, description="The numbers the texts say (degC, K, s from the step's start, P)."
+    )
     status: FlagStatus
     dispositions: list[DispositionPublic]
 

@@ -191,7 +191,7 @@ def rerun(
             (p if p.startswith("durations") else f"durations.{p}" if p else "durations", m)
             for p, m in _spec_problems(exc)
         ]
-        raise InvalidInput("the batch file is invalid", problems) from None
+        raise InvalidInput("the new step durations are invalid", problems) from None
     batch, job_ids = _create(session, settings, parent.spec, spec, who, merged, parent.id)
     session.commit()
     hand_on(dispatch, leaders(job_ids, settings))
@@ -347,6 +347,7 @@ def _flag_public(f: Flag, batch_label: str) -> FlagPublic:
         margin_value=f.body.get("margin_value"),
         margin_unit=f.body.get("margin_unit"),
         message=f.body.get("message"),
+        facts=f.body.get("facts"),
         status=FlagStatus(f.status),
         dispositions=[_disposition(d) for d in f.dispositions],
     )

@@ -156,18 +156,27 @@ def test_cli_client_verbs_against_a_real_server(served: tuple[str, dict[str, str
     assert status.returncode == 0 and "P-003" in status.stdout
     flags = _run(planner, "flags", "--batch", "1")
     assert flags.returncode == 0 and "soak" in flags.stdout
-    flag_id = re.search(r"│\s*(\d+)\s*│\s*1\s*│", flags.stdout)
+    assert max(len(line) for line in flags.stdout.splitlines()) <= 80  # a terminal's 80 columns
+    assert "core held at or above" in " ".join(flags.stdout.replace("│", " ").split())
+    flag_id = re.search(r"│\s*#(\d+)\s*│\s*batch 1\s*│", flags.stdout)
     assert flag_id, flags.stdout
+    in_f = _run(planner, "flags", "--batch", "1", "--units", "degF")
+    assert "degF" in in_f.stdout and "degC" not in in_f.stdout
     review = _run(reviewer, "review", flag_id.group(1), "--decision", "re-treat", "--comment", "soak again")
     assert review.returncode == 0, review.stderr
     denied = _run(planner, "review", flag_id.group(1), "--decision", "scrap", "--comment", "no")
     assert denied.returncode == 3 and "403" in denied.stderr
 
-    rerun = _run(planner, "rerun", "1", "--set", "soak=6 h", "--wait", "--timeout", "240")
+    rerun = _run(planner, "rerun", "1", "--set", "soak=5 h 60 min", "--wait", "--timeout", "240")
     assert rerun.returncode == 0, rerun.stdout + rerun.stderr
     assert "batch 2 queued (rerun of 1)" in rerun.stdout and "cleared" in rerun.stdout
     compare = _run(planner, "compare", "1", "2", "--json")
     assert compare.returncode == 0 and '"change": "cleared"' in compare.stdout
+    still = _run(planner, "rerun", "1", "--set", "soak=21 min", "--wait", "--timeout", "240")
+    assert still.returncode == 1, still.stdout + still.stderr  # as submit --wait: some part flagged
+    bad_value = _run(planner, "rerun", "1", "--set", "soak=2 h 30")
+    assert bad_value.returncode == 2 and "--set soak='2 h 30': expected a time" in bad_value.stderr
+    assert "batch file" not in bad_value.stderr
 
     bad = tmp_path / "bad.yaml"
     doc = batch_doc(2)

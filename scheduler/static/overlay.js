@@ -1,5 +1,6 @@
 /* soakline comparison chart: one part's core and surface, original (solid) against rerun (dashed).
-   The two traces have their own time grids; uPlot.join aligns them, gaps are bridged. */
+   The two traces have their own time grids; uPlot.join aligns them, gaps are bridged. The legend says
+   which line is dashed, in words and in its markers. */
 (function () {
   "use strict";
   var holder = document.getElementById("overlay");
@@ -13,7 +14,9 @@
   ];
   var series = [{ label: "time (min)" }];
   payload.labels.forEach(function (label, i) {
-    series.push({ label: label + " (" + payload.temp_unit + ")", stroke: styles[i].stroke, dash: styles[i].dash,
+    var line = styles[i].dash ? "dashed" : "solid";
+    series.push({ label: label + " (" + payload.temp_unit + "), " + line, stroke: styles[i].stroke,
+                  dash: styles[i].dash,
                   width: 2, spanGaps: true,
                   value: function (u, v) { return v == null ? "–" : v.toFixed(1); } });
   });
@@ -25,6 +28,7 @@
   var plot = new uPlot({
     width: dims.width, height: dims.height, scales: { x: { time: false } }, series: series,
     axes: [{ label: "time (min)" }, { label: "temperature (" + payload.temp_unit + ")" }],
+    legend: { markers: { dash: function (u, i) { return u.series[i].dash ? "dashed" : "solid"; } } },
     cursor: { drag: { x: true, y: false } }
   }, data, holder);
   window.addEventListener("resize", function () { plot.setSize(size()); });

@@ -166,6 +166,13 @@ def test_planner_reruns_with_the_suggested_soak_and_sees_the_flag_cleared(page: 
         " rows: soaklineOverlay.plot.data[0].length})"
     )
     assert overlay["part"] == "THICK-60" and overlay["n"] == 5 and overlay["rows"] > 200, overlay
+    # the legend says which line is dashed, in words and in its markers
+    legend = page.locator("#overlay .u-legend").inner_text()
+    assert "rerun core (°C), dashed" in legend and "original core (°C), solid" in legend
+    markers = page.evaluate(
+        "() => [...document.querySelectorAll('#overlay .u-legend .u-marker')].map(m => m.style.borderStyle)"
+    )
+    assert markers[1:] == ["solid", "solid", "dashed", "dashed"], markers
     page.screenshot(path=str(artifacts() / "compare.png"), full_page=True)
 
     # Tablet width: the parts table scrolls inside its box, the page itself does not.
@@ -173,3 +180,35 @@ def test_planner_reruns_with_the_suggested_soak_and_sees_the_flag_cleared(page: 
     page.goto(f"{site.url}/ui/batches/{site.batch_id}")
     assert page.evaluate("document.documentElement.scrollWidth") <= 768
     page.screenshot(path=str(artifacts() / "batch-tablet.png"), full_page=True)
+
+
+def test_the_chart_zooms_to_a_step_and_its_labels_stay_apart(page: Any, site: Site) -> None:
+    sign_in(page, site, "viewer")
+    page.goto(f"{site.url}/ui/batches/{site.batch_id}/parts/THICK-60")
+    page.wait_for_function("window.soaklineChart !== undefined")
+    boxes = page.evaluate("soaklineChart.plot.soaklineLabels")
+    assert len(boxes) >= 5  # three step names, two targets
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1 :]:
+            apart = a["x"] + a["w"] <= b["x"] or b["x"] + b["w"] <= a["x"]
+            apart = apart or a["y"] + a["h"] <= b["y"] or b["y"] + b["h"] <= a["y"]
+            assert apart, (a, b)
+    page.get_by_role("button", name="quench", exact=True).click()
+    scale = page.evaluate("({min: soaklineChart.plot.scales.x.min, max: soaklineChart.plot.scales.x.max})")
+    assert scale == {"min": pytest.approx(30.0), "max": pytest.approx(40.0)}  # minutes: the quench alone
+    assert page.get_by_role("button", name="quench", exact=True).get_attribute("aria-pressed") == "true"
+    page.locator("#chart").screenshot(path=str(artifacts() / "chart-quench.png"))
+    page.get_by_role("button", name="whole schedule").click()
+    assert page.evaluate("soaklineChart.plot.scales.x.max") == pytest.approx(40.0)
+
+
+def test_at_420_px_the_targets_of_a_part_are_in_view(page: Any, site: Site) -> None:
+    sign_in(page, site, "viewer")
+    page.set_viewport_size({"width": 420, "height": 900})
+    page.goto(f"{site.url}/ui/batches/{site.batch_id}")
+    cell = page.locator("tr", has_text="THICK-60").locator("td[data-label=Targets]")
+    box = cell.bounding_box()
+    assert box is not None and box["x"] >= 0 and box["x"] + box["width"] <= 420, box
+    assert "hold above" in cell.inner_text()
+    assert page.evaluate("document.documentElement.scrollWidth") <= 420
+    page.screenshot(path=str(artifacts() / "batch-420.png"), full_page=True)

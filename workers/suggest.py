@@ -156,8 +156,18 @@ def _point(trace: Trace, at: str) -> np.ndarray:
     return trace.corner_c
 
 
-def _bounds(part: PartSpec, step: str, k: int, trace: Trace, horizon_s: float) -> list[_Bound]:
+def _hottest_ambient(batch: BatchSpec, step: str) -> float:
+    spec = batch.step(step)
+    lower = spec.lower_face.ambient_c if spec.lower_face is not None else None
+    return max(spec.ambient_c, spec.ambient_c if lower is None else lower)
+
+
+def _bounds(
+    part: PartSpec, step: str, k: int, trace: Trace, horizon_s: float, hottest_c: float
+) -> list[_Bound]:
     t, idx = step_window(trace, k)
+    points = [trace.core_c, trace.surface_c, trace.corner_c, trace.second_surface_c]
+    warmest_at_end = max(float(p[idx][-1]) for p in points if p is not None)
     found: list[_Bound] = []
     for target in part.targets:
         if target.step != step:
@@ -168,6 +178,14 @@ def _bounds(part: PartSpec, step: str, k: int, trace: Trace, horizon_s: float) -
         if kind is TargetKind.HOLD_ABOVE:
             limit, need = target.limit_c or 0.0, target.for_s or 0.0
             done = hold_done_at(t, temp, limit, need)
+            if done is None and limit > hottest_c and warmest_at_end < limit:
+                # with no heat made inside, a part below the limit in a furnace below it never gets there
+                reason = (
+                    f"{target.point} never reaches {target.hold_above}: the step's ambient is only "
+                    f"{hottest_c:.0f} degC"
+                )
+                found.append(_Bound(part.id, what, impossible=reason))
+                continue
             found.append(_Bound(part.id, what, lower=done, beyond=done is None))
         elif kind is TargetKind.STAY_BELOW:
             found.append(_Bound(part.id, what, upper=first_above(t, temp, target.limit_c or 0.0)))
@@ -205,10 +223,15 @@ def _exact(runs: _Runs, step: str) -> SuggestBody | None:
     while True:
         samples = int(min(EXACT_SAMPLES_MAX, max(SAMPLES_PER_STEP, math.ceil(horizon / EXACT_SPACING_S))))
         traces = runs.traces(horizon, samples)
+        hottest = _hottest_ambient(runs.batch, step)
         bounds = [
-            b for p, tr in zip(runs.parts, traces, strict=True) for b in _bounds(p, step, runs.k, tr, horizon)
+            b
+            for p, tr in zip(runs.parts, traces, strict=True)
+            for b in _bounds(p, step, runs.k, tr, horizon, hottest)
         ]
-        if not any(b.beyond for b in bounds) or horizon >= _limits.MAX_STEP_S:
+        if not any(b.beyond for b in bounds) or any(b.impossible for b in bounds):
+            break
+        if horizon >= _limits.MAX_STEP_S:
             break
         horizon = min(2.0 * horizon, _limits.MAX_STEP_S)
     impossible = next((b for b in bounds if b.impossible), None)
@@ -217,8 +240,8 @@ def _exact(runs: _Runs, step: str) -> SuggestBody | None:
             step,
             None,
             impossible.part,
-            f"{impossible.part}: {impossible.impossible}; the crossing does not move with the step's length, "
-            f"so no duration of '{step}' clears every target of that step.",
+            f"{impossible.part}: {impossible.impossible}; a longer '{step}' does not change that, so no "
+            f"duration of '{step}' clears every target of that step.",
             runs.count,
             "exact",
             f"one run with '{step}' at {format_duration(horizon)}",

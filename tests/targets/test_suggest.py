@@ -114,7 +114,15 @@ def test_no_duration_when_a_fall_is_too_late_whatever_the_length(batch_doc: dict
     doc = copy.deepcopy(batch_doc)
     doc["parts"][0]["targets"][2]["within"] = "10 s"  # the core cannot fall below 200 degC in 10 s
     answer = suggest(parse_batch(doc), "quench")
-    assert answer["duration_s"] is None and "does not move" in (answer["reason"] or "")
+    assert answer["duration_s"] is None and "does not change that" in (answer["reason"] or "")
+
+
+def test_a_hold_above_the_furnace_is_found_impossible_in_one_run(batch_doc: dict[str, Any]) -> None:
+    doc = copy.deepcopy(batch_doc)
+    doc["parts"][1]["targets"][0]["hold_above"] = "870 degC"  # the furnace is at 860 degC
+    answer = suggest(parse_batch(doc), "heat")
+    assert answer["duration_s"] is None and answer["simulations"] == 1
+    assert "never reaches 870 degC" in (answer["reason"] or "") and "thick" in (answer["reason"] or "")
 
 
 def test_an_answer_beyond_the_files_duration_doubles_the_upper_bound(batch_doc: dict[str, Any]) -> None:

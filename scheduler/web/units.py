@@ -12,6 +12,10 @@ from typing import Any, Literal
 
 from fastapi import Request
 
+from workers.targets import facts_texts
+from workers.wording import TempUnit as TextUnit
+from workers.wording import Texts
+
 __all__ = ["UNITS_COOKIE", "Units", "units_from"]
 
 UNITS_COOKIE = "soakline_units"
@@ -41,6 +45,23 @@ class Units:
     @property
     def temp_label(self) -> str:
         return "°F" if self.temp_unit == "F" else "°C"
+
+    @property
+    def text_unit(self) -> TextUnit:
+        """The unit of the texts a check is said in."""
+        return "degF" if self.temp_unit == "F" else "degC"
+
+    def texts(self, body: Mapping[str, Any]) -> Texts:
+        """A stored check's or flag's required, achieved, margin and message in the viewer's unit (a result
+        stored before checks kept their facts keeps its own texts, its margin converted)."""
+        if not body.get("facts"):
+            return Texts(
+                str(body.get("required", "")),
+                str(body.get("achieved", "")),
+                self.fmt_margin(body),
+                str(body.get("message", "")),
+            )
+        return facts_texts(body, self.text_unit)  # type: ignore[arg-type]  # a stored FlagBody
 
     def temp(self, temp_c: float | None) -> float | None:
         """A temperature (degC) in the display unit."""

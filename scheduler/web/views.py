@@ -31,7 +31,13 @@ __all__ = [
     "trace_csv",
 ]
 
-_SERIES = (("core_c", "core"), ("surface_c", "surface"), ("corner_c", "corner"), ("ambient_c", "ambient"))
+_SERIES = (
+    ("core_c", "core"),
+    ("surface_c", "surface"),
+    ("corner_c", "corner"),
+    ("underside_c", "underside"),
+    ("ambient_c", "ambient"),
+)
 
 
 def part_size(part: PartSpec, units: Units) -> str:
@@ -127,8 +133,12 @@ def _marks(body: PartResult, units: Units) -> tuple[list[dict[str, Any]], list[d
 
 
 def _columns(trace: TraceBody) -> dict[str, list[float | None]]:
-    """The trace's temperature columns present in this result, by key."""
-    return {k: v for k, v in trace.items() if k.endswith("_c") and isinstance(v, list)}
+    """The trace's temperature columns present in this result, by key (a result stored before the
+    underside had its name calls it second_surface_c)."""
+    found = {k: v for k, v in trace.items() if k.endswith("_c") and isinstance(v, list)}
+    if "second_surface_c" in found:
+        found.setdefault("underside_c", found.pop("second_surface_c"))
+    return found
 
 
 def chart_payload(body: PartResult, units: Units) -> dict[str, Any]:

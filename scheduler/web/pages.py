@@ -17,7 +17,7 @@ from fastapi import APIRouter, Form, Query, Request
 from fastapi.responses import FileResponse, HTMLResponse, PlainTextResponse, RedirectResponse, Response
 from fastapi.templating import Jinja2Templates
 
-from models import BatchSpec, parse_time
+from models import BatchSpec, parse_time, target_warnings
 from models.errors import SpecError
 from models.tables import Batch, BatchStatus, Decision, Role
 from models.text import text_problem
@@ -169,6 +169,7 @@ def batch_page(request: Request, batch_id: BatchId, session: SessionDep, user: W
         rows=_rows(session, batch_id, spec, units),
         schedule=views.schedule_rows(spec, units),
         hold_steps=views.hold_steps(spec),
+        warnings=target_warnings(spec),
         busy=batch.status in (BatchStatus.QUEUED, BatchStatus.RUNNING),
         reruns=service.rerun_ids(session, batch_id),
     )

@@ -97,3 +97,22 @@ def test_every_command_documents_its_exit_status(command: tuple[str, ...]) -> No
     assert not re.search(r"[A-Za-z)] \.(?:\s|$)", text), text  # no option help lost to markup
     if "--api" in text:
         assert "SOAKLINE_API_URL" in text
+
+
+def test_serve_names_both_the_docs_and_the_openapi_schema(monkeypatch: pytest.MonkeyPatch) -> None:
+    import uvicorn
+
+    import scheduler.api
+    import scheduler.service_cli as service_cli
+
+    started: list[object] = []
+    monkeypatch.setattr(service_cli, "_prepare_database", lambda settings: None)
+    monkeypatch.setattr(scheduler.api, "create_app", lambda settings: "app")
+    monkeypatch.setattr(uvicorn, "run", lambda app, **kwargs: started.append(app))
+    monkeypatch.setenv("SOAKLINE_DATABASE_URL", "sqlite:///unused.db")
+    monkeypatch.delenv("SOAKLINE_BROKER_URL", raising=False)
+    res = runner.invoke(app, ["serve", "--port", "8123"])
+    assert res.exit_code == 0, res.output
+    said = " ".join(res.stderr.split())
+    assert "http://127.0.0.1:8123" in said and "/docs" in said and "/openapi.json" in said
+    assert started == ["app"]

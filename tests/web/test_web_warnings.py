@@ -23,5 +23,6 @@ def test_the_batch_page_warns_of_a_tempering_parameter_in_rankine(tmp_path: Path
         page = api.get(f"/ui/batches/{created.json()['id']}").text
         assert 'class="warnings"' in page and "parts[0].targets[1].temper_parameter_min" in page
         assert "did you mean 17222?" in page
+        assert "Shortest step durations" in page and "Soak suggestion" not in page
         plain = api.post("/batches", json=batch_doc(2), headers=auth(tokens["planner"])).json()["id"]
         assert 'class="warnings"' not in api.get(f"/ui/batches/{plain}").text

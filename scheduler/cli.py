@@ -136,11 +136,11 @@ def _result_table(result: BatchResult, unit: TempUnit) -> Table:
     """One row per target; the part (id, size, steel) in the first column of its first row. Five columns
     that stay readable in an 80-column terminal."""
     table = Table(title=f"Batch: {result['batch']}", title_justify="left", show_lines=False)
-    table.add_column("Part", no_wrap=True)
+    table.add_column("Part", max_width=16)
     table.add_column("Step")
-    table.add_column("Target")
-    table.add_column("Predicted")
-    table.add_column("Result")
+    table.add_column("Target", overflow="fold")
+    table.add_column("Predicted", overflow="fold")
+    table.add_column("Result", overflow="fold")
     for part in result["parts"]:
         checks: list[CheckBody | None] = [*part["checks"]] or [None]
         for i, check in enumerate(checks):

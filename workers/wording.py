@@ -150,7 +150,7 @@ def _fall(at: str, step: str, facts: Facts, unit: TempUnit) -> Texts:
 
 def _difference(at: str, step: str, facts: Facts, unit: TempUnit) -> Texts:
     limit, worst = _f(facts, "limit_k"), _f(facts, "worst_k")
-    pair = f"core-to-{at} difference"
+    pair = f"difference between core and {at}"
     when = f"{format_duration(_f(facts, 'worst_s'))} into {step}"
     limit_text, worst_text = format_difference(limit, unit), format_difference(worst, unit)
     message = f"{pair} reached {worst_text} at {when}" + (

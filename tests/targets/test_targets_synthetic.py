@@ -154,10 +154,13 @@ def test_max_difference_takes_the_absolute_largest_either_way() -> None:
     tr = trace([0, 1, 2, 3], [0, 0, 0, 0], [20, 500, 800, 600], surface=[140, 600, 800, 300])
     check = evaluate(Target("s0", 0, "max_difference", "surface", 250.0), tr)
     assert not check.passed
-    assert check.required == "core-to-surface difference <= 250 K"
-    assert check.achieved == "core-to-surface difference up to 300 K, at 3 s into s0"
+    assert check.required == "difference between core and surface <= 250 K"
+    assert check.achieved == "difference between core and surface up to 300 K, at 3 s into s0"
     assert check.margin_value == pytest.approx(-50.0)
-    assert check.message == "core-to-surface difference reached 300 K at 3 s into s0, over the 250 K limit"
+    assert (
+        check.message
+        == "difference between core and surface reached 300 K at 3 s into s0, over the 250 K limit"
+    )
 
 
 def test_corner_needs_a_corner() -> None:
@@ -232,7 +235,7 @@ def test_every_text_follows_the_readers_temperature_unit() -> None:
     assert texts.margin == "-540 degF"
     assert "degC" not in texts.required + texts.achieved + texts.margin + texts.message
     gap = evaluate(Target("s0", 0, "max_difference", "surface", 50.0), tr)
-    assert facts_texts(gap.as_dict(), "degF").required == "core-to-surface difference <= 90 degF"
+    assert facts_texts(gap.as_dict(), "degF").required == "difference between core and surface <= 90 degF"
     assert facts_texts(gap.as_dict(), "degC") == Texts(gap.required, gap.achieved, gap.margin, gap.message)
 
 

@@ -178,7 +178,10 @@ def _when(at: datetime | None) -> str:
 
 
 def token_list() -> None:
-    """List the tokens: name, role, created, last used, expiry (never the tokens themselves)."""
+    """List the tokens: name, role, created, last used, expiry (never the tokens themselves).
+
+    Exit status: 0 listed; 2 a setting is invalid; 3 the database cannot be reached.
+    """
     settings = _settings()
     _prepare_database(settings)
     with session_factory(settings)() as session:
@@ -196,7 +199,11 @@ def token_list() -> None:
 
 
 def token_revoke(name: Annotated[str, typer.Argument(help="Name of the token to revoke.")]) -> None:
-    """Revoke a token: it stops working at once (page sessions too), and the name can be reused."""
+    """Revoke a token: it stops working at once (page sessions too), and the name can be reused.
+
+    Exit status: 0 revoked; 2 no token has that name, or a setting is invalid; 3 the database cannot
+    be reached.
+    """
     settings = _settings()
     _prepare_database(settings)
     with session_scope(session_factory(settings)) as session:

@@ -25,7 +25,7 @@ from workers.thermal.line import LineMarch
 from workers.thermal.plan import Cohort, Method, make_plan
 from workers.thermal.result import StepResult
 from workers.thermal.solid import SolidFactory, TensorMarch
-from workers.thermal.spec import FloatArray, PartThermal, Step, Tolerance, Trace
+from workers.thermal.spec import FloatArray, PartThermal, PhaseTrace, Step, Tolerance, Trace
 
 
 def sample_times(steps: Sequence[Step], samples_per_step: int) -> tuple[FloatArray, NDArray[np.int64]]:
@@ -77,8 +77,17 @@ class _Record:
         self.bound = np.zeros((g.P, total))
         self.steps = np.zeros(g.P, dtype=np.int64)
         self.col = 1
+        self.step = 0
+        self.phases: dict[str, FloatArray] = {}  # name -> (P, steps, ...) when any step had phases
+        self.n_steps = n_steps
 
     def add(self, r: StepResult) -> None:
+        if r.phases is not None:
+            for name, v in r.phases.items():
+                if name not in self.phases:
+                    self.phases[name] = np.full((v.shape[0], self.n_steps, *v.shape[1:]), np.nan)
+                self.phases[name][:, self.step] = v
+        self.step += 1
         m = r.heat.shape[1]
         cols = slice(self.col, self.col + m)
         for name, v in self.out.items():
@@ -171,5 +180,14 @@ def _traces(
                 corner_c=out["corner"][j] if "corner" in out else None,
                 second_surface_c=out["second"][j] if "second" in out else None,
                 substeps=int(rec.steps[j]),
+                phases=_phase_trace(rec, j),
             )
     return [traces[i] for i in range(n_parts)]
+
+
+def _phase_trace(rec: _Record, j: int) -> PhaseTrace | None:
+    """Part ``j``'s phases at each step end, when they were followed (every step marched with them)."""
+    ph = rec.phases
+    if not ph or np.isnan(ph["core"][j]).any():
+        return None
+    return PhaseTrace(ph["core"][j], ph["surface"][j], ph["core_rate700"][j], ph["surface_rate700"][j])

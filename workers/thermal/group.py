@@ -20,6 +20,7 @@ import numpy as np
 
 from workers.thermal import eigen, layout, modes, tensor
 from workers.thermal.layout import AXES, TAIL, Layout
+from workers.thermal.phases.carried import NodePhases
 from workers.thermal.properties import slowest_diffusivity
 from workers.thermal.spec import Face, FloatArray, PartThermal, Step, Tolerance
 
@@ -62,6 +63,7 @@ class State:
     sB: FloatArray
     profile: tuple[FloatArray, FloatArray] | None = None
     carry: FloatArray | None = None
+    phases: NodePhases | None = None  # with ``carry``: the march's phase state of the same nodes
 
     @staticmethod
     def uniform(temp_c: FloatArray) -> State:

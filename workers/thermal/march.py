@@ -39,7 +39,8 @@ from scipy import sparse
 from scipy.linalg import solve_banded
 from scipy.sparse import linalg as splinalg
 
-from workers.thermal.nodes import Laws, Nodes
+from workers.thermal.nodes import Laws, Nodes, Tables
+from workers.thermal.phases.carried import NodePhases, put
 from workers.thermal.spec import FloatArray
 
 # Newton stops once no node moves by more than this; convergence is quadratic where the properties
@@ -212,6 +213,7 @@ class MarchResult:
     error: FloatArray  # (P, m) error estimate, K
     end: FloatArray  # (N,) flat node temperatures at the step end
     steps: NDArray[np.int64]  # (P,) time steps taken by each part
+    phases: NodePhases | None = None  # (N nodes) the phases at the step end, when marched with them
 
 
 # Local error of BDF2 over its difference from the predictor (a quadratic through T_(n-1), T_n with
@@ -229,12 +231,19 @@ def march(
     offsets: FloatArray,
     step_k: float,
     first_dt: FloatArray,
+    phases: NodePhases | None = None,
+    phase_change: float = 0.05,
 ) -> MarchResult:
     """March every part through one step from node temperatures ``T0``, reporting at ``offsets`` (s).
 
     The first time step of each part is implicit Euler with Richardson extrapolation (no history yet;
     the ambient or the face law may have jumped at the step start); the rest are variable-step BDF2 with
     the Milne error estimate. Both are sized so that the local error estimate stays below ``step_k``.
+
+    ``phases``: the nodes' phase state at the step start when some steels transform (their tables hold
+    the base curve, ``phases.carried``). After each solved time step the phases move; a step is taken
+    only if no node's austenite fraction changes by more than ``phase_change``, and the latent heat
+    released is placed in its node at constant enthalpy (the only place the march meets the phases).
     """
     P, m = nodes.P, offsets.size
     end_t = float(offsets[-1])
@@ -265,6 +274,8 @@ def march(
     todo = np.ones(P, dtype=bool)
     est = np.zeros(P)
     Q_f, Q_c = np.zeros(P), np.zeros(P)  # last step's heat in, for the BDF2 energy recursion
+    released = np.zeros(nodes.N)  # latent heat of the accepted first steps, J/m^3
+    phase_end = phases
     while todo.any():
         hh = np.where(todo, h, 0.0)
         a = implicit_solve(nodes, laws, solver, T0, H0, hh, hh)
@@ -273,21 +284,35 @@ def march(
         e = nodes.per_part_max(np.abs(b2.T - a.T))
         solved = a.ok & b1.ok & b2.ok
         fine = solved & ((e <= step_k) | (hh <= hmin)) & todo
-        T = np.where(fine[part], 2.0 * b2.T - a.T, T)
+        cand = 2.0 * b2.T - a.T
+        pcut = np.ones(P)
+        if phases is not None:
+            tried, rel, change = phases.trial(T0, cand, hh[part])
+            moved = nodes.per_part_max(change)
+            fine &= (moved <= phase_change) | (hh <= hmin)
+            pcut = np.clip(0.9 * phase_change / np.maximum(moved, 1e-300), SHRINK, 1.0)
+            phase_end = tried if phase_end is None else phase_end.take(tried, fine[part])
+            released = np.where(fine[part], rel, released)
+        T = np.where(fine[part], cand, T)
         Q_f = np.where(fine, 2.0 * (b1.heat_f + b2.heat_f) - a.heat_f, Q_f)
         Q_c = np.where(fine, 2.0 * (b1.heat_c + b2.heat_c) - a.heat_c, Q_c)
         est = np.where(fine, e, est)
         cut = np.clip(0.9 * np.sqrt(step_k / np.maximum(e, 1e-300)), SHRINK, 1.0)
-        h = np.where(todo & ~fine, h * np.where(solved, cut, 0.25), h)
+        h = np.where(todo & ~fine, h * np.where(solved, np.minimum(cut, pcut), 0.25), h)
         todo = todo & ~fine
         _guard(todo & ~solved & (hh <= hmin))
+    phases = phase_end
     H, C = tabs.lookup(nodes.base, T, 2)
+    T_unsettled = T
+    if phases is not None:
+        T, H, C = _warm(tabs, nodes.base, T, H + released)
     t = np.where(h >= end_t, end_t, h)
     heat_f, heat_c = Q_f.copy(), Q_c.copy()
     err_sum = est.copy()
     h_prev = h.copy()
-    T_prev, H_prev = T0.copy(), H0
-    dTdt = (H - H0) / (h[part] * C)  # the step's own balance gives dT/dt at its end
+    # history in the frame of the phases now (BDF2 on the total enthalpy with the phases held)
+    T_prev, H_prev = T0 + (T - T_unsettled), H0 + released
+    dTdt = (H - H_prev) / (h[part] * C)  # the step's own balance gives dT/dt at its end
 
     r_prev = readout(T0, np.zeros(P), np.zeros(P), np.zeros(P))
     r_now = readout(T, heat_f, heat_c, err_sum)
@@ -295,6 +320,7 @@ def march(
     ids = np.arange(P)  # original number of each part still in the arrays
     node_ids = np.arange(nodes.N)
     T_end = np.full(nodes.N, np.nan)  # every node is written when its part leaves or at the end
+    record = None if phases is None else phases.subset(slice(None))  # the phases, likewise
     nxt = _emit(
         out, offsets, np.zeros(P, dtype=np.intp), np.ones(P, dtype=bool), t_before, t, r_prev, r_now, ids
     )
@@ -308,6 +334,9 @@ def march(
             nodes, kept = nodes.subset(active)
             solver.reset()
             T_end[node_ids[~kept]] = T[~kept]
+            if phases is not None and record is not None:
+                put(record, node_ids[~kept], phases.subset(~kept))
+                phases = phases.subset(kept)
             node_ids = node_ids[kept]
             T, T_prev, H, H_prev, dTdt = T[kept], T_prev[kept], H[kept], H_prev[kept], dTdt[kept]
             t, h, h_prev, t_before, nxt, ids = (
@@ -341,12 +370,26 @@ def march(
         sol = implicit_solve(nodes, laws, solver, pred, target, t + hh, c2 * hh)
         e = MILNE * nodes.per_part_max(np.abs(sol.T - pred))
         good = sol.ok & ((e <= step_k) | (hh <= hmin)) & active
+        pfactor = np.full(P, GROWTH)
+        if phases is not None:
+            tried, rel, change = phases.trial(T, sol.T, s)
+            moved = nodes.per_part_max(change)
+            good &= (moved <= phase_change) | (hh <= hmin)
+            pfactor = np.clip(0.9 * phase_change / np.maximum(moved, 1e-300), SHRINK, GROWTH)
         _guard(active & ~sol.ok & (hh <= hmin))
         sel = good[part]
         new_dTdt = (sol.H - target) / (c2[part] * np.maximum(s, 1e-300) * sol.C)
         T_prev, H_prev = np.where(sel, T, T_prev), np.where(sel, H, H_prev)
         T, H = np.where(sel, sol.T, T), np.where(sel, sol.H, H)
         dTdt = np.where(sel, new_dTdt, dTdt)
+        if phases is not None:
+            phases = phases.take(tried, sel)
+            rel = np.where(sel, rel, 0.0)
+            if rel.any():
+                settled, H, _ = _warm(tabs, nodes.base, T, H + rel)
+                T_prev = T_prev + (settled - T)
+                H_prev = H_prev + rel
+                T = settled
         Q_f = np.where(good, b2c * Q_f + sol.heat_f, Q_f)
         Q_c = np.where(good, b2c * Q_c + sol.heat_c, Q_c)
         heat_f = np.where(good, heat_f + Q_f, heat_f)
@@ -361,18 +404,34 @@ def march(
         t_before = np.where(good, t, t_before)
         h_prev = np.where(good, hh, h_prev)
         t = np.where(good, t_new, t)
-        factor = np.clip(0.9 * np.cbrt(step_k / np.maximum(e, 1e-300)), SHRINK, GROWTH)
+        factor = np.minimum(np.clip(0.9 * np.cbrt(step_k / np.maximum(e, 1e-300)), SHRINK, GROWTH), pfactor)
         grown = hh * np.where(sol.ok, factor, 0.25)
         # a step cut short to end the schedule step does not shrink the proposal
         h = np.where(good & (hh < h), np.maximum(h, grown), grown)
         h = np.maximum(h, hmin)
     T_end[node_ids] = T
+    if phases is not None and record is not None:
+        put(record, node_ids, phases)
     if np.isnan(out).any() or np.isnan(T_end).any():
         raise ArithmeticError("the march left a reported time or an end temperature unset")
     vals = {name: out[i] for i, name in enumerate(names)}
     heat_out = vals.pop("heat")
     err_out = vals.pop("error")
-    return MarchResult(vals, heat_out, err_out, T_end, taken)
+    return MarchResult(vals, heat_out, err_out, T_end, taken, record)
+
+
+def _warm(tabs: Tables, base: NDArray[np.intp], T: FloatArray, H: FloatArray) -> list[FloatArray]:
+    """Temperatures whose table enthalpy is ``H`` (J/m^3), from ``T``: where latent heat was placed.
+
+    Newton on the piecewise-linear table enthalpy; returns T, H and rho cp at T."""
+    for _ in range(NEWTON_MAX):
+        Hn, Cn = tabs.lookup(base, T, 2)
+        delta = (H - Hn) / Cn
+        T = T + delta
+        if np.max(np.abs(delta), initial=0.0) < 1e-9:
+            break
+    Hn, Cn = tabs.lookup(base, T, 2)
+    return [T, Hn, Cn]
 
 
 def _guard(stuck: NDArray[np.bool_]) -> None:

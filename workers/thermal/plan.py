@@ -5,6 +5,11 @@
 - ``SOLID``: every step of a block or short cylinder that has any nonlinear step, marched on its
   tensor grid (``solid``): a 3-D profile never has to cross between nodes and modes.
 
+A part with a ``composition`` (a steel whose phases are followed) of a 1-D layout is marched at every
+step (``LINE``), linear or not: the phases are the march's state and live on its nodes. Blocks and short
+cylinders do not follow phases (the solid march does not carry them): they keep the single enthalpy
+curve whatever their composition, and the result says so (README, "Known limits").
+
 Parts of one layout that run the same method at every step form a ``Cohort``, the unit every method
 works on; each method hands back the same ``StepResult`` (``result``).
 """
@@ -40,10 +45,17 @@ def is_linear(part: PartThermal, step: Step) -> bool:
     return part.material.is_constant and all(f.is_linear for f in faces)
 
 
+def follows_phases(layout: Layout, part: PartThermal) -> bool:
+    """The part's phases are followed: it has a composition and a 1-D layout."""
+    return part.composition is not None and not layout.solid
+
+
 def methods_of(layout: Layout, part: PartThermal, steps: Sequence[Step]) -> tuple[Method, ...]:
     linear = [is_linear(part, st) for st in steps]
     if layout.solid:
         return tuple(Method.SERIES if all(linear) else Method.SOLID for _ in steps)
+    if follows_phases(layout, part):
+        return tuple(Method.LINE for _ in steps)
     return tuple(Method.SERIES if lin else Method.LINE for lin in linear)
 
 

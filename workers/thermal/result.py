@@ -24,6 +24,9 @@ class StepResult:
     ``steps``: (P,) time steps taken (1 for a series step).
     ``end``: where the parts stand at the step's end, for the next step whatever its method; ``None``
     when the method keeps its own state between steps (the solid march).
+    ``phases``: at the step's end, for parts whose phases the method followed: ``core`` and
+    ``surface`` (P, 5) fractions, ``core_rate700`` and ``surface_rate700`` (P,) K/s (nan for a part
+    without phases or a point not yet cooled through 700 degC).
     """
 
     values: dict[str, FloatArray]
@@ -31,3 +34,4 @@ class StepResult:
     bound: FloatArray
     steps: NDArray[np.int64]
     end: State | None
+    phases: dict[str, FloatArray] | None = None

@@ -9,10 +9,13 @@ W/m^2/K.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 from numpy.typing import NDArray
+
+if TYPE_CHECKING:
+    from workers.thermal.phases.composition import Composition
 
 FloatArray = NDArray[np.float64]
 ShapeName = Literal["plate", "bar", "block", "cylinder"]  # the batch file's shapes
@@ -99,11 +102,13 @@ class Step:
 
 @dataclass(frozen=True)
 class PartThermal:
-    """One part as the engine sees it."""
+    """One part as the engine sees it. ``composition``: a steel whose phases are followed (1-D layouts:
+    plates, two-face plates and bars; ``plan``), None for the single enthalpy curve."""
 
     shape: Shape
     material: Material
     initial_c: float
+    composition: Composition | None = None
 
 
 @dataclass(frozen=True)
@@ -116,13 +121,15 @@ class Tolerance:
     ``intervals``: node spacings across a plate's half thickness or a bar's radius in that march (a
     two-face plate gets twice as many across its whole thickness); even, since the grid estimate uses
     every second node. ``solid_intervals``: the same along every axis of a block, twice that along
-    both axes of a short cylinder.
+    both axes of a short cylinder. ``phase_change``: largest change of austenite fraction of any node
+    in one time step of a march that follows phases (the latent heat is placed after each step).
     """
 
     series_k: float = 1e-2
     step_k: float = 0.03
     intervals: int = 40
     solid_intervals: int = 12
+    phase_change: float = 0.05
 
 
 @dataclass
@@ -148,3 +155,16 @@ class Trace:
     corner_c: FloatArray | None = None
     second_surface_c: FloatArray | None = None
     substeps: int = 0  # series steps plus march time steps taken for this part
+    phases: PhaseTrace | None = None  # a part whose phases were followed
+
+
+@dataclass
+class PhaseTrace:
+    """Phases of one part at the end of every step (``core`` and ``surface`` (steps, 5) fractions by
+    ``phases.PHASES``) and the cooling rate (K/s) where each point last fell through 700 degC up to that
+    step's end (nan when it has not)."""
+
+    core: FloatArray
+    surface: FloatArray
+    core_rate700: FloatArray
+    surface_rate700: FloatArray

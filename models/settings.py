@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from functools import lru_cache
 from pathlib import Path
-from typing import Self
+from typing import Literal, Self
 
 from platformdirs import user_data_dir
 from pydantic import Field, SecretStr, ValidationError, field_validator, model_validator
@@ -61,6 +61,16 @@ class Settings(BaseSettings):
     max_body_bytes: int = Field(default=8 * 1024 * 1024, ge=1024)
     # Parts per submitted batch, checked before any part is validated (at most the product limit).
     max_parts: int = Field(default=limits.MAX_PARTS, ge=1, le=limits.MAX_PARTS)
+    # The review pages' cookies are Secure (sent over https only) when this says so: auto = when the
+    # request came over https as the API sees it (a proxy's X-Forwarded-Proto counts only from
+    # trusted_proxies), so plain http on a host name can sign in and https keeps its cookies to https.
+    cookie_secure: Literal["auto", "true", "false"] = "auto"
+    # Addresses (or networks, or "*") whose X-Forwarded-Proto and X-Forwarded-For the API believes:
+    # the TLS proxy in front of it. Comma-separated.
+    trusted_proxies: str = "127.0.0.1"
+    # Signs the review pages' form tokens; unset, a random key per API process (open forms must be
+    # reloaded after a restart). Set it when several API processes serve the same pages.
+    secret_key: SecretStr | None = None
     api_url: str = "http://127.0.0.1:8000"
     token: SecretStr | None = None
 
@@ -84,6 +94,11 @@ class Settings(BaseSettings):
         if scheme not in _BROKER_SCHEMES:
             raise ValueError(f"expected a URL like redis://127.0.0.1:6379/0, got {value!r}")
         return value
+
+    @field_validator("cookie_secure", mode="before")
+    @classmethod
+    def _lower(cls, value: object) -> object:
+        return value.strip().lower() if isinstance(value, str) else value
 
     @field_validator("api_url")
     @classmethod

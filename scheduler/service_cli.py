@@ -108,7 +108,8 @@ def serve(
         "review pages at /ui",
         highlight=False,
     )
-    uvicorn.run(create_app(settings), host=host, port=port, log_level="info")
+    # The app reads a proxy's forwarded headers itself, from SOAKLINE_TRUSTED_PROXIES only.
+    uvicorn.run(create_app(settings), host=host, port=port, log_level="info", proxy_headers=False)
 
 
 def worker(

@@ -12,6 +12,7 @@ from contextlib import asynccontextmanager
 
 from fastapi import FastAPI
 from sqlalchemy import event
+from uvicorn.middleware.proxy_headers import ProxyHeadersMiddleware
 
 from models.settings import Settings, get_settings
 from models.store import OutageLog, engine_for, migrate, wait_for_database
@@ -88,6 +89,10 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     app.state.dispatch = _dispatcher(settings)
     install_error_handlers(app, pages=("/ui/", web.error_page))
     app.add_middleware(RequestGuard, max_body_bytes=settings.max_body_bytes)
+    # A TLS proxy's X-Forwarded-Proto/-For are believed from SOAKLINE_TRUSTED_PROXIES only: the scheme
+    # decides whether the pages' cookies are Secure (scheduler.web.csrf.cookie_secure). Outermost, so
+    # that the guard and the pages see the client's scheme and address.
+    app.add_middleware(ProxyHeadersMiddleware, trusted_hosts=settings.trusted_proxies)
     app.include_router(batches.router)
     app.include_router(flags.router)
     app.include_router(health.router)

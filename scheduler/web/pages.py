@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Annotated, Any
 from urllib.parse import quote, urlsplit
 
-from fastapi import APIRouter, Form, Query, Request
+from fastapi import APIRouter, Depends, Form, Query, Request
 from fastapi.responses import FileResponse, HTMLResponse, PlainTextResponse, RedirectResponse, Response
 from fastapi.templating import Jinja2Templates
 
@@ -26,6 +26,7 @@ from scheduler.api.auth import Principal, lookup_token
 from scheduler.api.deps import BatchId, FlagId, Offset, SessionDep, SettingsDep, has_role
 from scheduler.api.errors import DomainError, InvalidInput, ResultNotReady
 from scheduler.web import views
+from scheduler.web.csrf import check_form, cookie_secure, page_token, set_nonce
 from scheduler.web.session import WebPlanner, WebReviewer, WebUser, clear_session, start_session
 from scheduler.web.units import UNITS_COOKIE, Units, units_from
 from workers.jobs import NOTICE  # one wording of the safety notice, shared with the results
@@ -40,6 +41,8 @@ templates.env.globals["notice"] = NOTICE
 templates.env.globals["decisions"] = [d.value for d in Decision]
 
 router = APIRouter(prefix="/ui", include_in_schema=False)
+# Every form post carries the page's token (scheduler.web.csrf); a post without it is refused with 403.
+CHECKED = [Depends(check_form)]
 
 REPORT_CHARTS = 20  # at most this many curves in a printed report; the table lists every part
 ALL = 1_000_000  # a page lists every flag of its batch or part
@@ -63,12 +66,17 @@ def _page(
     request: Request, name: str, user: Principal | None, status_code: int = 200, **context: Any
 ) -> HTMLResponse:
     units = units_from(request)
-    return templates.TemplateResponse(
+    settings = request.app.state.settings
+    token, new_nonce = page_token(request, settings)
+    page = templates.TemplateResponse(
         request,
         name,
-        {"user": user, "units": units, "here": request.url.path, **context},
+        {"user": user, "units": units, "here": request.url.path, "csrf": token, **context},
         status_code=status_code,
     )
+    if new_nonce is not None:
+        set_nonce(page, request, settings, new_nonce)
+    return page
 
 
 def error_page(request: Request, exc: DomainError) -> HTMLResponse:
@@ -99,10 +107,11 @@ def sign_in_form(request: Request, next: str | None = None) -> HTMLResponse:
     return _page(request, "sign_in.html", None, next=_safe_next(next), problem=None)
 
 
-@router.post("/sign-in", response_class=HTMLResponse)
+@router.post("/sign-in", response_class=HTMLResponse, dependencies=CHECKED)
 def sign_in(
     request: Request,
     session: SessionDep,
+    settings: SettingsDep,
     token: Annotated[str, Form()] = "",
     next: Annotated[str, Form()] = "/ui/batches",
 ) -> Response:
@@ -111,19 +120,21 @@ def sign_in(
         problem = "That token is not known. Paste the whole token (it starts with sl_)."
         return _page(request, "sign_in.html", None, 401, next=_safe_next(next), problem=problem)
     response = RedirectResponse(_safe_next(next), status_code=303)
-    start_session(response, token.strip())
+    start_session(response, token.strip(), cookie_secure(request, settings))
     return response
 
 
-@router.post("/sign-out")
-def sign_out() -> RedirectResponse:
+@router.post("/sign-out", dependencies=CHECKED)
+def sign_out(request: Request, settings: SettingsDep) -> RedirectResponse:
     response = RedirectResponse("/ui/sign-in", status_code=303)
-    clear_session(response)
+    clear_session(response, cookie_secure(request, settings))
     return response
 
 
-@router.post("/units")
+@router.post("/units", dependencies=CHECKED)
 def set_units(
+    request: Request,
+    settings: SettingsDep,
     temp: Annotated[str, Form()] = "C",
     length: Annotated[str, Form()] = "mm",
     back: Annotated[str, Form()] = "/ui/batches",
@@ -131,7 +142,12 @@ def set_units(
     units = Units.parse(f"{temp}-{length}")
     response = RedirectResponse(_safe_next(back), status_code=303)
     response.set_cookie(
-        UNITS_COOKIE, units.cookie(), max_age=365 * 86400, path="/ui", samesite="strict", secure=True
+        UNITS_COOKIE,
+        units.cookie(),
+        max_age=365 * 86400,
+        path="/ui",
+        samesite="strict",
+        secure=cookie_secure(request, settings),
     )
     return response
 
@@ -257,7 +273,7 @@ def _attachment(name: str) -> str:
     return f"attachment; filename=\"{plain}\"; filename*=UTF-8''{quote(name, safe='')}"
 
 
-@router.post("/flags/{flag_id}/disposition")
+@router.post("/flags/{flag_id}/disposition", dependencies=CHECKED)
 def disposition(
     request: Request,
     flag_id: FlagId,
@@ -299,7 +315,7 @@ def rerun_form(
     return _page(request, "rerun.html", user, problems=[], **_rerun_context(batch, spec, suggested))
 
 
-@router.post("/batches/{batch_id}/rerun", response_class=HTMLResponse)
+@router.post("/batches/{batch_id}/rerun", response_class=HTMLResponse, dependencies=CHECKED)
 async def rerun(
     request: Request, batch_id: BatchId, session: SessionDep, settings: SettingsDep, user: WebPlanner
 ) -> Response:

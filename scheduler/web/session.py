@@ -2,8 +2,9 @@
 
 The cookie holds the token itself and nothing else (no role, no name): every request looks the token up
 again, so revoking it in the database ends the browser session too. It is http-only (no script reads
-it), Secure and SameSite=strict (never sent with a request started by another site, which is also what
-keeps the pages' forms safe from cross-site posts).
+it), SameSite=strict (never sent with a request started by another site) and Secure as the deployment
+says (``scheduler.web.csrf.cookie_secure``). The forms carry their own token besides
+(``scheduler.web.csrf``), since SameSite does not stop a page of the same site.
 """
 
 from __future__ import annotations
@@ -34,21 +35,21 @@ SESSION_COOKIE = "soakline_session"
 SESSION_MAX_AGE_S = 12 * 3600  # one shift; the token stays valid, only the browser forgets it
 
 
-def start_session(response: Response, token: str) -> None:
-    """Keep ``token`` in the session cookie of ``response``."""
+def start_session(response: Response, token: str, secure: bool) -> None:
+    """Keep ``token`` in the session cookie of ``response`` (``secure``: only ever sent over https)."""
     response.set_cookie(
         SESSION_COOKIE,
         token,
         max_age=SESSION_MAX_AGE_S,
         path="/ui",
-        secure=True,
+        secure=secure,
         httponly=True,
         samesite="strict",
     )
 
 
-def clear_session(response: Response) -> None:
-    response.delete_cookie(SESSION_COOKIE, path="/ui", secure=True, httponly=True, samesite="strict")
+def clear_session(response: Response, secure: bool) -> None:
+    response.delete_cookie(SESSION_COOKIE, path="/ui", secure=secure, httponly=True, samesite="strict")
 
 
 def page_user(request: Request, session: SessionDep) -> Principal:

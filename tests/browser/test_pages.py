@@ -53,7 +53,8 @@ def test_sign_in_sets_a_strict_http_only_cookie_and_lists_batches(page: Any, sit
     page.keyboard.press("Enter")
     page.wait_for_url("**/ui/batches")
     cookie = next(c for c in page.context.cookies() if c["name"] == "soakline_session")
-    assert cookie["httpOnly"] and cookie["secure"] and cookie["sameSite"] == "Strict"
+    assert cookie["httpOnly"] and cookie["sameSite"] == "Strict"
+    assert not cookie["secure"]  # plain http: SOAKLINE_COOKIE_SECURE=auto marks it Secure on https only
     assert cookie["value"] == site.tokens["viewer"]
     row = page.locator("tr", has_text="browser test load")
     assert "done" in row.inner_text()

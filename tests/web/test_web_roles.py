@@ -11,6 +11,7 @@ from models.tables import Flag, Job
 from scheduler.api import create_app
 from scheduler.web.session import SESSION_COOKIE
 from tests.service.helpers import TestClient, auth, batch_doc, make_settings, make_tokens
+from tests.web.forms import page_csrf
 from workers.runner import execute_job
 
 
@@ -29,10 +30,13 @@ def test_roles_and_errors_on_pages_and_api(tmp_path: Path) -> None:
         assert flag_id is not None, "the 20 min soak must leave the thick plate flagged"
 
         api.cookies.set(SESSION_COOKIE, tokens["viewer"])
-        page = api.post(f"/ui/flags/{flag_id}/disposition", data={"decision": "scrap", "comment": "no"})
+        csrf = page_csrf(api, f"/ui/batches/{batch_id}")  # the forms' token, as a page gives it
+        page = api.post(
+            f"/ui/flags/{flag_id}/disposition", data={"decision": "scrap", "comment": "no", "csrf": csrf}
+        )
         assert page.status_code == 403 and page.headers["content-type"].startswith("text/html")
         assert "this needs a reviewer token" in page.text and "(viewer)" in page.text
-        rerun = api.post(f"/ui/batches/{batch_id}/rerun", data={"duration:soak": "2 h"})
+        rerun = api.post(f"/ui/batches/{batch_id}/rerun", data={"duration:soak": "2 h", "csrf": csrf})
         assert rerun.status_code == 403 and "this needs a planner token" in rerun.text
         missing = api.get("/ui/batches/9999")
         assert missing.status_code == 404 and "batch 9999 not found" in missing.text
@@ -47,7 +51,7 @@ def test_roles_and_errors_on_pages_and_api(tmp_path: Path) -> None:
         api.cookies.set(SESSION_COOKIE, tokens["reviewer"])
         done = api.post(
             f"/ui/flags/{flag_id}/disposition",
-            data={"decision": "scrap", "comment": "cracked"},
+            data={"decision": "scrap", "comment": "cracked", "csrf": csrf},
             follow_redirects=False,
         )
         assert done.status_code == 303 and done.headers["location"].endswith("#history")

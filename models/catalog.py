@@ -52,6 +52,10 @@ class Table:
         v0, v1 = self.value[i - 1], self.value[i]
         return v0 + (v1 - v0) * (temp_c - t0) / (t1 - t0)
 
+    def scaled(self, factor: float) -> Table:
+        """Every value times ``factor`` (a fitted severity on a medium's h curve), sources kept."""
+        return Table(self.temp_c, tuple(v * factor for v in self.value), self.unit, self.sources)
+
 
 ELEMENTS = ("C", "Mn", "Si", "Ni", "Cr", "Mo", "Cu", "V", "B")
 

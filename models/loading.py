@@ -21,6 +21,7 @@ from pydantic import BaseModel, ValidationError
 from models import limits, units
 from models.errors import Problem, SpecError
 from models.parts import InlineMaterialSpec, PartSpec
+from models.profiles import ProfileLookup, expand_profiles
 from models.spec import BatchSpec
 from models.steps import LowerFaceSpec, StepSpec
 from models.targets import TargetSpec
@@ -105,12 +106,16 @@ def _size_problems(doc: Mapping[str, Any], max_parts: int) -> list[Problem]:
     return out
 
 
-def parse_batch(doc: object, *, max_parts: int = limits.MAX_PARTS) -> BatchSpec:
+def parse_batch(
+    doc: object, *, max_parts: int = limits.MAX_PARTS, profiles: ProfileLookup | None = None
+) -> BatchSpec:
     """Validate a parsed document (mapping from YAML, JSON or an API body) as a batch.
 
     Before the fields are checked: the part and step counts (``max_parts`` may be lower than the
     product limit, a service setting), then every string and number for what cannot be stored
-    (``models.text``: NUL and control characters, lone surrogates, NaN and infinities).
+    (``models.text``: NUL and control characters, lone surrogates, NaN and infinities). ``profiles``
+    looks up the exchange profiles that steps name (``profile: NAME``); without it a step must carry
+    its exchange itself (as a stored batch does, the profile's values already written in).
     """
     if not isinstance(doc, Mapping):
         raise SpecError.single(
@@ -120,6 +125,8 @@ def parse_batch(doc: object, *, max_parts: int = limits.MAX_PARTS) -> BatchSpec:
         raise SpecError(sized)
     if raw := value_problems(doc):
         raise SpecError([Problem(format_path(loc), message) for loc, message in raw])
+    if profiles is not None:
+        doc = expand_profiles(doc, profiles)
     try:
         return BatchSpec.model_validate(doc)
     except ValidationError as exc:
@@ -237,7 +244,7 @@ def _read_text(file: Path) -> str:
         raise SpecError.single(f"{file}: cannot be read ({exc.strerror or exc})") from None
 
 
-def load_batch_file(path: str | os.PathLike[str]) -> BatchSpec:
+def load_batch_file(path: str | os.PathLike[str], profiles: ProfileLookup | None = None) -> BatchSpec:
     """Read and validate a batch file: JSON when it ends in .json, YAML otherwise."""
     file = Path(path)
     text = _read_text(file)
@@ -246,4 +253,4 @@ def load_batch_file(path: str | os.PathLike[str]) -> BatchSpec:
     doc = _parse_text(text, file)
     if doc is None:
         raise SpecError.single(f"{file}: the file holds no data (only comments?)")
-    return parse_batch(doc)
+    return parse_batch(doc, profiles=profiles)

@@ -7,16 +7,40 @@ from typing import TYPE_CHECKING, Any
 
 from models import catalog, units
 from models.base import RuleProblem, SpecModel
-from models.fields import DurationText, Emissivity, HtcText, MediumName, TemperatureText, Text
+from models.fields import (
+    DurationText,
+    Emissivity,
+    HtcText,
+    MediumName,
+    PositiveNumber,
+    TemperatureText,
+    Text,
+)
 
 
 def _one_of_htc_medium(raw: Mapping[str, Any]) -> list[RuleProblem]:
     has_htc, has_medium = raw.get("htc") is not None, raw.get("medium") is not None
+    problems: list[RuleProblem] = []
+    if raw.get("severity") is not None and not has_medium:
+        problems.append((("severity",), "severity scales a medium's h curve: give it with medium"))
     if has_htc and has_medium:
-        return [(("medium",), "give either htc or medium, not both")]
+        return [*problems, (("medium",), "give either htc or medium, not both")]
     if not (has_htc or has_medium):
-        return [(("htc",), "required: give htc (e.g. '150 W/m^2/K') or medium (a catalog name)")]
-    return []
+        if raw.get("profile") is not None:
+            name = raw.get("profile")
+            return [
+                *problems,
+                (("profile",), f"no exchange profile named {name!r} is known here (see soakline profiles)"),
+            ]
+        return [
+            *problems,
+            (
+                ("htc",),
+                "required: give htc (e.g. '150 W/m^2/K'), medium (a catalog name) or profile (a fitted "
+                "exchange profile)",
+            ),
+        ]
+    return problems
 
 
 class _Face:
@@ -26,6 +50,7 @@ class _Face:
         htc: str | None
         medium: str | None
         emissivity: float | None
+        severity: float | None
 
     @property
     def medium_data(self) -> catalog.Medium | None:
@@ -41,7 +66,7 @@ class _Face:
         """h against surface temperature in degC: a one-row table for a constant ``htc``."""
         medium = self.medium_data
         if medium is not None:
-            return medium.htc
+            return medium.htc if self.severity is None else medium.htc.scaled(self.severity)
         return catalog.Table.constant(units.parse_htc(self.htc or ""), "W/m^2/K", "given in the batch file")
 
     @property
@@ -60,6 +85,8 @@ class LowerFaceSpec(_Face, SpecModel):
     medium: MediumName | None = None
     ambient: TemperatureText | None = None
     emissivity: Emissivity | None = None
+    severity: PositiveNumber | None = None
+    profile: Text | None = None
 
     @classmethod
     def _rules(cls, raw: Mapping[str, Any]) -> list[RuleProblem]:
@@ -81,6 +108,8 @@ class StepSpec(_Face, SpecModel):
     htc: HtcText | None = None
     medium: MediumName | None = None
     emissivity: Emissivity | None = None
+    severity: PositiveNumber | None = None
+    profile: Text | None = None
     lower_face: LowerFaceSpec | None = None
 
     @classmethod

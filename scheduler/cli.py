@@ -23,7 +23,10 @@ from rich.table import Table
 from rich.text import Text
 
 from models import BatchSpec, SpecError, load_batch_file
+from models.profiles import CAUTION, LocalProfiles
+from models.records import load_record_file
 from models.results import BatchResult, CheckBody
+from workers.fitting import fit_record
 from workers.jobs import CHUNK_PARTS, NOTICE, run_batch
 from workers.suggest import suggest
 from workers.targets import facts_texts
@@ -94,7 +97,7 @@ def _invalid(exc: SpecError, what: str) -> typer.Exit:
 
 def _load(file: Path) -> BatchSpec:
     try:
-        return load_batch_file(file)
+        return load_batch_file(file, profiles=LocalProfiles().get)
     except SpecError as exc:
         raise _invalid(exc, str(file)) from None
 
@@ -250,6 +253,77 @@ def suggest_command(
         out.print(f"Result JSON: {json_out}")
     _notice()
     raise typer.Exit(0 if answer["duration_s"] is not None or nothing else 1)
+
+
+@app.command("fit")
+def fit_command(
+    record: Annotated[
+        Path, typer.Argument(help="Thermocouple record (YAML, or JSON when it ends in .json).")
+    ],
+    step: Annotated[str, typer.Option("--step", help="Name of the record's step whose exchange is fitted.")],
+    param: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--param",
+            help="What to fit, repeatable: h, emissivity, severity, lag (the thermocouples' response "
+            "time). Default: severity for a step with a medium, else h.",
+        ),
+    ] = None,
+    json_out: JsonOpt = None,
+    save: Annotated[
+        str | None,
+        typer.Option("--save", help="Save the fit as an exchange profile of this name (local profile file)."),
+    ] = None,
+) -> None:
+    """Fit the exchange of one step (h, emissivity, severity, thermocouple lag) to a record's readings.
+
+    Least squares with the engine as the model; 95 % intervals from the Jacobian and the residual.
+    --save keeps the result as an exchange profile that a batch step can name (profile: NAME).
+
+    Exit status: 0 fitted (warnings, if any, are printed); 2 the record, --step, --param or --save is
+    invalid, or the JSON cannot be written (nothing is saved then).
+    """
+    try:
+        rec = load_record_file(record)
+    except SpecError as exc:
+        raise _invalid(exc, str(record)) from None
+    try:
+        with out.status(f"Fitting step '{step}' ..."):
+            done = fit_record(rec, step, param)
+        profile = None if save is None else done.profile(save)
+    except SpecError as exc:
+        raise _invalid(exc, str(record)) from None
+    report = done.report()
+    table = Table(title=f"Record: {rec.label} ({rec.date.isoformat()}), step '{step}'", title_justify="left")
+    for column in ("Parameter", "Fitted", "95 % interval", "Unit"):
+        table.add_column(column)
+    for p in report["params"]:
+        table.add_row(p["name"], f"{p['value']:.4g}", f"{p['low']:.4g} to {p['high']:.4g}", p["unit"])
+    out.print(table)
+    out.print(
+        f"RMS residual {report['rms_k']:.2f} K, largest {report['max_k']:.2f} K over {report['readings']} "
+        f"readings; {report['evaluations']} engine runs in {report['seconds']:.1f} s."
+    )
+    for warning in report["warnings"]:
+        out.print(Text(f"Warning: {warning}", style="bold"))
+    if json_out is not None:
+        if profile is not None:
+            report["profile"] = profile.model_dump(mode="json")
+        _write_json(report, json_out)
+        out.print(f"Result JSON: {json_out}")
+    if profile is not None:
+        store = LocalProfiles()
+        try:
+            store.save(profile)
+        except (SpecError, OSError) as exc:
+            err.print(f"cannot save the profile to {store.path}: {exc}", markup=False)
+            raise typer.Exit(2) from None
+        out.print(
+            f"Saved profile '{profile.name}' in {store.path}; a step uses it as 'profile: {profile.name}'."
+        )
+    out.print(Text(CAUTION, style="italic"))
+    _notice()
+    raise typer.Exit(0)
 
 
 def demo_path() -> Path:

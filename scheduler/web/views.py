@@ -92,8 +92,12 @@ def _step_text(step: StepSpec, units: Units) -> dict[str, str]:
     if step.ambient_start is not None:
         ambient = f"{units.fmt_temp(step.ambient_start_c)} → {ambient}"
     exchange = step.medium or step.htc or ""
+    if step.severity is not None:
+        exchange += f" × {step.severity:.3g}"
     if step.emissivity is not None:
         exchange += f", emissivity {step.emissivity:g}"
+    if step.profile is not None:
+        exchange = f"profile {step.profile}: {exchange}"
     return {"name": step.name, "duration": step.duration, "ambient": ambient, "exchange": exchange}
 
 

@@ -25,7 +25,7 @@ from typing import Annotated, Any, Literal
 from platformdirs import user_data_dir
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, model_validator
 
-from models import catalog
+from models import catalog, limits
 from models.errors import Problem, SpecError
 from models.fields import check_part_id
 
@@ -49,8 +49,13 @@ CAUTION = (
 )
 
 
+MAX_POINTS = 100_000  # readings or curve points per thermocouple
+MAX_SERIES = 200  # thermocouples per profile
+Short = Annotated[str, Field(max_length=limits.MAX_TEXT)]
+
+
 class _Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
 
 
 class ProfileParam(_Model):
@@ -66,14 +71,22 @@ class ProfileParam(_Model):
 class ProfileSeries(_Model):
     """One thermocouple for the chart: readings, the fitted model's curve, residuals within the step."""
 
-    part: str
-    thermocouple: str
-    position: str
-    time_s: list[float]
-    reading_c: list[float]
-    residual_k: list[float | None]  # None outside the fitted step
-    model_time_s: list[float]
-    model_c: list[float]
+    part: Short
+    thermocouple: Short
+    position: Short
+    time_s: list[float] = Field(max_length=MAX_POINTS)
+    reading_c: list[float] = Field(max_length=MAX_POINTS)
+    residual_k: list[float | None] = Field(max_length=MAX_POINTS)  # None outside the fitted step
+    model_time_s: list[float] = Field(max_length=MAX_POINTS)
+    model_c: list[float] = Field(max_length=MAX_POINTS)
+
+    @model_validator(mode="after")
+    def _same_lengths(self) -> ProfileSeries:
+        if not len(self.time_s) == len(self.reading_c) == len(self.residual_k):
+            raise ValueError("time_s, reading_c and residual_k must have one entry per reading")
+        if len(self.model_time_s) != len(self.model_c):
+            raise ValueError("model_time_s and model_c must have the same length")
+        return self
 
 
 class ProfileSpec(_Model):
@@ -81,23 +94,23 @@ class ProfileSpec(_Model):
 
     name: ProfileName
     htc_w_m2k: float | None = Field(default=None, gt=0)
-    medium: str | None = None
+    medium: Short | None = None
     severity: float | None = Field(default=None, gt=0)
     emissivity: float = Field(default=0.0, ge=0, le=1)
     lag_s: float | None = Field(default=None, ge=0)
-    step: str
-    ambient: str
-    record: str
+    step: Short
+    ambient: Short
+    record: Short
     record_date: dt.date
     fitted_at: dt.datetime
     level: float = Field(gt=0, lt=1)
-    params: list[ProfileParam]
+    params: list[ProfileParam] = Field(min_length=1, max_length=4)
     rms_k: float = Field(ge=0)
     max_k: float = Field(ge=0)
     readings: int = Field(ge=1)
-    warnings: list[str] = Field(default_factory=list)
-    series: list[ProfileSeries] = Field(default_factory=list)
-    description: str = ""
+    warnings: list[Annotated[str, Field(max_length=2000)]] = Field(default_factory=list, max_length=20)
+    series: list[ProfileSeries] = Field(default_factory=list, max_length=MAX_SERIES)
+    description: str = Field(default="", max_length=2000)
 
     @model_validator(mode="after")
     def _one_exchange(self) -> ProfileSpec:

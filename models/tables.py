@@ -35,6 +35,7 @@ __all__ = [
     "BatchStatus",
     "Decision",
     "Disposition",
+    "ExchangeProfile",
     "Flag",
     "FlagStatus",
     "Job",
@@ -251,3 +252,16 @@ class ApiToken(Base):
     created_at: Mapped[datetime] = mapped_column(_tz(), default=utcnow)
     expires_at: Mapped[datetime | None] = mapped_column(_tz())
     last_used_at: Mapped[datetime | None] = mapped_column(_tz())
+
+
+class ExchangeProfile(Base):
+    """A fitted exchange profile (``models.profiles.ProfileSpec`` as JSON): created once by a planner,
+    never changed; a new fit of the same furnace or tank takes a new name."""
+
+    __tablename__ = "exchange_profiles"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(200), unique=True)
+    data: Mapped[dict[str, Any]] = mapped_column(JsonType)
+    created_by: Mapped[str] = mapped_column(String(100))
+    created_at: Mapped[datetime] = mapped_column(_tz(), default=utcnow)

@@ -25,7 +25,8 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
-from models import parse_time
+from models import SpecError, parse_time
+from models.profiles import CAUTION, LocalProfiles
 from models.results import FlagBody
 from models.settings import Settings, SettingsError, load_settings
 from models.store import DatabaseUnavailable, migrate, session_factory, session_scope, wait_for_database
@@ -499,6 +500,51 @@ def review(
     out.print(f"flag {flag_id}: {body['decision']} by {body['by']} at {body['at']}", highlight=False)
 
 
+def profile_list() -> None:
+    """The exchange profiles saved on this machine by `soakline fit --save` (the local profile file).
+
+    Exit status: 0; 2 the profile file cannot be read.
+    """
+    store = LocalProfiles()
+    try:
+        names = store.names()
+        profiles = [p for n in names if (p := store.get(n)) is not None]
+    except SpecError as exc:
+        _fail(str(exc), 2)
+    if not profiles:
+        out.print(f"No profile saved in {store.path}.", highlight=False)
+        return
+    table = Table(title=f"Exchange profiles in {store.path}", title_justify="left")
+    for col in ("name", "sets", "step", "recorded on", "RMS K"):
+        table.add_column(col)
+    for p in profiles:
+        table.add_row(p.name, p.exchange_text, p.step, p.record_date.isoformat(), f"{p.rms_k:.2f}")
+    out.print(table)
+    out.print(CAUTION, style="dim", highlight=False)
+
+
+def profile_send(
+    name: Annotated[str, typer.Argument(help="Name of a profile saved with `soakline fit --save`.")],
+    api: ApiOpt = None,
+) -> None:
+    """Store a locally saved exchange profile in the service (planner token), for batches sent there.
+
+    Exit status: 0 stored; 2 no such local profile, or the API finds it invalid; 3 the API cannot be
+    reached or refuses (a profile of that name exists there already: profiles never change).
+    """
+    try:
+        profile = LocalProfiles().get(name)
+    except SpecError as exc:
+        _fail(str(exc), 2)
+    if profile is None:
+        _fail(f"no profile named {name!r} in {LocalProfiles().path}", 2)
+    with _client(api) as client:
+        _call(client, "POST", "/profiles", json=profile.model_dump(mode="json"))
+    out.print(
+        f"profile {name} stored; batch steps sent to the service can use 'profile: {name}'", highlight=False
+    )
+
+
 def register(app: typer.Typer) -> None:
     """Add the service commands to the main ``soakline`` app."""
     app.command("serve")(serve)
@@ -508,6 +554,10 @@ def register(app: typer.Typer) -> None:
     token_app.command("list")(token_list)
     token_app.command("revoke")(token_revoke)
     app.add_typer(token_app, name="token")
+    profile_app = typer.Typer(help="Exchange profiles fitted by `soakline fit`.", no_args_is_help=True)
+    profile_app.command("list")(profile_list)
+    profile_app.command("send")(profile_send)
+    app.add_typer(profile_app, name="profile")
     for fn in (submit, status, flags, rerun, compare, review):
         app.command(fn.__name__)(fn)
 

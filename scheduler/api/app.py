@@ -17,7 +17,7 @@ from uvicorn.middleware.proxy_headers import ProxyHeadersMiddleware
 from models.settings import Settings, get_settings
 from models.store import OutageLog, engine_for, migrate, wait_for_database
 from scheduler import web
-from scheduler.api import batches, flags, health
+from scheduler.api import batches, flags, health, profiles
 from scheduler.api.errors import install_error_handlers
 from scheduler.api.guard import RequestGuard
 from workers.background import InProcessRunner, Sweeper
@@ -35,7 +35,8 @@ the applicable heat-treatment and pyrometry specifications and the judgement of 
 a passing prediction never replaces load thermocouples or hardness checks.
 
 Every endpoint but `/health` needs `Authorization: Bearer TOKEN` (`soakline token create`).
-Planners submit and rerun, reviewers record dispositions, every role reads.
+Planners submit and rerun and store exchange profiles, reviewers record dispositions, every role
+reads.
 """
 
 
@@ -95,6 +96,7 @@ def create_app(settings: Settings | None = None, *, background: bool = True) -> 
     app.add_middleware(ProxyHeadersMiddleware, trusted_hosts=settings.trusted_proxies)
     app.include_router(batches.router)
     app.include_router(flags.router)
+    app.include_router(profiles.router)
     app.include_router(health.router)
     app.include_router(web.router)
     return app

@@ -26,6 +26,8 @@ __all__ = [
     "Forbidden",
     "InvalidInput",
     "PartNotFound",
+    "ProfileExists",
+    "ProfileNotFound",
     "ResultNotReady",
     "ServiceUnavailable",
     "Unauthorized",
@@ -79,6 +81,25 @@ class FlagNotFound(DomainError):
     def __init__(self, flag_id: int) -> None:
         super().__init__(f"flag {flag_id} not found")
         self.flag_id = flag_id
+
+
+class ProfileNotFound(DomainError):
+    status_code = 404
+
+    def __init__(self, name: str) -> None:
+        super().__init__(f"no exchange profile named {name!r}")
+        self.name = name
+
+
+class ProfileExists(DomainError):
+    status_code = 409
+
+    def __init__(self, name: str) -> None:
+        super().__init__(
+            f"an exchange profile named {name!r} exists already; profiles never change: save a new fit "
+            "under a new name"
+        )
+        self.name = name
 
 
 class ResultNotReady(DomainError):

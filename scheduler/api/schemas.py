@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
-from datetime import datetime
+from datetime import date, datetime
 from typing import Annotated, Any, Literal
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
 from models.limits import MAX_STEPS, MAX_TEXT
+from models.profiles import ProfileSpec
 from models.tables import BatchStatus, Decision, FlagStatus, JobStatus
 from models.text import text_problem
 
@@ -29,6 +30,8 @@ __all__ = [
     "PartFlags",
     "PartSummary",
     "ProblemPublic",
+    "ProfilePublic",
+    "ProfileSummary",
     "RerunCreate",
     "SuggestPublic",
 ]
@@ -78,6 +81,26 @@ class BatchCreated(_Out):
     id: int
     status: BatchStatus
     parent_id: int | None = None
+
+
+class ProfilePublic(_Out):
+    """A stored exchange profile: the profile as created, who created it and when."""
+
+    profile: ProfileSpec
+    created_by: str
+    created_at: datetime
+
+
+class ProfileSummary(_Out):
+    name: str
+    exchange: str = Field(description="What the profile puts into a step, in words.")
+    step: str
+    record: str
+    record_date: date
+    rms_k: float
+    warnings: int
+    created_by: str
+    created_at: datetime
 
 
 class BatchSummary(_Out):

@@ -17,6 +17,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from models import BatchSpec, SpecError, parse_batch, with_durations
 from models.limits import MAX_PARTS
+from models.profiles import ProfileLookup
 from models.resolved import dump_resolved, stored_spec
 from models.results import CheckBody, PartResult
 from models.settings import Settings
@@ -33,6 +34,7 @@ from models.tables import (
     Result,
     utcnow,
 )
+from scheduler.api import profile_service
 from scheduler.api.auth import Principal
 from scheduler.api.errors import BatchNotFound, FlagNotFound, InvalidInput, PartNotFound, ResultNotReady
 from scheduler.api.schemas import (
@@ -80,11 +82,16 @@ def _spec_problems(exc: SpecError) -> list[tuple[str, str]]:
 
 
 def validate(
-    doc: Any, durations: Mapping[str, str] | None = None, *, max_parts: int = MAX_PARTS
+    doc: Any,
+    durations: Mapping[str, str] | None = None,
+    *,
+    max_parts: int = MAX_PARTS,
+    profiles: ProfileLookup | None = None,
 ) -> BatchSpec:
-    """Parse a batch file (and apply rerun durations); InvalidInput naming every bad field."""
+    """Parse a batch file (and apply rerun durations); InvalidInput naming every bad field. Steps that
+    name an exchange profile get its values from ``profiles``."""
     try:
-        spec = parse_batch(doc, max_parts=max_parts)
+        spec = parse_batch(doc, max_parts=max_parts, profiles=profiles)
         if durations:
             spec = with_durations(spec, dict(durations))
     except SpecError as exc:
@@ -162,7 +169,7 @@ def submit(
     session: Session, settings: Settings, doc: Mapping[str, Any], who: Principal, dispatch: Dispatch
 ) -> Batch:
     """Validate, store (one transaction), then queue one job per part."""
-    spec = validate(doc, max_parts=settings.max_parts)
+    spec = validate(doc, max_parts=settings.max_parts, profiles=profile_service.lookup(session))
     batch, job_ids = _create(session, settings, doc, spec, who)
     session.commit()
     hand_on(dispatch, leaders(job_ids, settings))

@@ -19,9 +19,10 @@ from fastapi.templating import Jinja2Templates
 
 from models import BatchSpec, parse_time, target_warnings
 from models.errors import SpecError
+from models.profiles import CAUTION
 from models.tables import Batch, BatchStatus, Decision, Role
 from models.text import text_problem
-from scheduler.api import service
+from scheduler.api import profile_service, service
 from scheduler.api.auth import Principal, lookup_token
 from scheduler.api.deps import BatchId, FlagId, Offset, SessionDep, SettingsDep, has_role
 from scheduler.api.errors import DomainError, InvalidInput, ResultNotReady
@@ -380,4 +381,31 @@ def compare(
         busy=busy,
         overlay=overlay,
         ready=ready,
+    )
+
+
+# -- exchange profiles --------------------------------------------------------------------------------
+
+
+@router.get("/profiles", response_class=HTMLResponse)
+def profiles_page(request: Request, session: SessionDep, user: WebUser) -> HTMLResponse:
+    """Every stored exchange profile: what it sets, its record and the record's date."""
+    return _page(
+        request, "profiles.html", user, profiles=profile_service.list_profiles(session), caution=CAUTION
+    )
+
+
+@router.get("/profiles/{name}", response_class=HTMLResponse)
+def profile_page(request: Request, name: str, session: SessionDep, user: WebUser) -> HTMLResponse:
+    """One profile: fitted values with intervals, the readings and fitted curves, residuals below."""
+    stored = profile_service.get_profile(session, name)
+    units = units_from(request)
+    return _page(
+        request,
+        "profile.html",
+        user,
+        stored=stored,
+        p=stored.profile,
+        chart=views.profile_chart_payload(stored.profile, units),
+        caution=CAUTION,
     )

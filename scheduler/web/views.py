@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from models import BatchSpec, PartSpec, StepSpec
+from models.profiles import ProfileSpec
 from models.results import CheckBody, PartResult, TraceBody
 from models.tables import FlagStatus
 from scheduler.api.schemas import BatchPublic, ComparePart
@@ -223,3 +224,28 @@ def compare_row(part: ComparePart) -> dict[str, Any]:
     row["cleared"] = [f for f in part.before.flags if _flag_key(f) not in after]
     row["gained"] = [f for f in part.after.flags if _flag_key(f) not in before]
     return row
+
+
+def profile_chart_payload(profile: ProfileSpec, units: Units) -> dict[str, Any]:
+    """A profile's readings (points) and fitted curves (lines) per thermocouple, residuals below; time in
+    minutes, temperatures in the viewer's unit, residuals as differences in that unit."""
+    curves: list[list[list[float | None]]] = []  # per table: times, then values (uPlot.join's input)
+    residuals: list[list[list[float | None]]] = []
+    labels: list[str] = []
+    for s in profile.series:
+        name = f"{s.part} {s.thermocouple} ({s.position})"
+        labels.append(name)
+        minutes: list[float | None] = [round(t / 60.0, 4) for t in s.time_s]
+        model_minutes: list[float | None] = [round(t / 60.0, 4) for t in s.model_time_s]
+        curves.append([model_minutes, [units.temp(v) for v in s.model_c]])
+        curves.append([minutes, [units.temp(v) for v in s.reading_c]])
+        inside = [(m, r) for m, r in zip(minutes, s.residual_k, strict=True) if r is not None]
+        residuals.append([[m for m, _ in inside], [round(units.delta(r), 3) for _, r in inside]])
+    delta_unit = "°F" if units.temp_unit == "F" else "K"
+    return {
+        "temp_unit": units.temp_label,
+        "delta_unit": delta_unit,
+        "labels": labels,
+        "curves": curves,
+        "residuals": residuals,
+    }

@@ -72,7 +72,7 @@ def redis_ok() -> None:
         need(False, f"Redis at 127.0.0.1:6379 is not reachable: {exc}")
 
 
-TABLES = "dispositions, flags, results, jobs, parts, batches, api_tokens"
+TABLES = "dispositions, flags, results, jobs, parts, batches, api_tokens, exchange_profiles"
 
 
 @pytest.fixture

@@ -228,3 +228,34 @@ def assert_complete_exactly_once(settings: Settings, batch_id: int, parts: int) 
 
 
 LAUNCH = [sys.executable, str(HERE / "launch.py"), "cli"]
+
+
+def profile_doc(name: str = "furnace-2", htc: float = 123.4) -> dict[str, Any]:
+    """An exchange profile as `soakline fit --save` writes it (values invented, for the service tests)."""
+    return {
+        "name": name,
+        "htc_w_m2k": htc,
+        "emissivity": 0.6,
+        "step": "heat",
+        "ambient": "860 degC",
+        "record": "survey load",
+        "record_date": "2026-11-01",
+        "fitted_at": "2026-11-02T10:00:00+00:00",
+        "level": 0.95,
+        "params": [{"name": "h", "value": htc, "low": htc - 3, "high": htc + 3, "unit": "W/m^2/K"}],
+        "rms_k": 1.2,
+        "max_k": 3.0,
+        "readings": 40,
+        "series": [
+            {
+                "part": "PL-1",
+                "thermocouple": "TC1",
+                "position": "core",
+                "time_s": [0.0, 600.0, 1200.0],
+                "reading_c": [20.0, 400.0, 700.0],
+                "residual_k": [None, 1.0, -0.5],
+                "model_time_s": [0.0, 600.0, 1200.0],
+                "model_c": [20.0, 401.0, 699.5],
+            }
+        ],
+    }

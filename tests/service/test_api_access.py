@@ -11,7 +11,7 @@ import pytest
 from models.settings import Settings
 from scheduler.api import create_app
 
-from .helpers import TestClient, auth, batch_doc
+from .helpers import TestClient, auth, batch_doc, profile_doc
 
 pytestmark = pytest.mark.service
 
@@ -26,6 +26,9 @@ ENDPOINTS: list[tuple[str, str, Any, set[str]]] = [
     ("GET", "/batches/1/suggest?step=nosuchstep", None, {"planner", "reviewer", "viewer"}),
     ("GET", "/flags", None, {"planner", "reviewer", "viewer"}),
     ("POST", "/flags/1/disposition", {"decision": "scrap", "comment": "checked"}, {"reviewer"}),
+    ("POST", "/profiles", profile_doc(), {"planner"}),
+    ("GET", "/profiles", None, {"planner", "reviewer", "viewer"}),
+    ("GET", "/profiles/furnace-2", None, {"planner", "reviewer", "viewer"}),
 ]
 
 
@@ -50,6 +53,8 @@ def test_openapi_and_health_are_public(client: TestClient) -> None:
         "/batches/{batch_id}/rerun",
         "/batches/{batch_id}/compare/{other_id}",
         "/batches/{batch_id}/suggest",
+        "/profiles",
+        "/profiles/{name}",
         "/health",
     ):
         assert path in spec["paths"], path

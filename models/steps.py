@@ -30,7 +30,11 @@ def _one_of_htc_medium(raw: Mapping[str, Any]) -> list[RuleProblem]:
             name = raw.get("profile")
             return [
                 *problems,
-                (("profile",), f"no exchange profile named {name!r} is known here (see soakline profiles)"),
+                (
+                    ("profile",),
+                    f"no exchange profile named {name!r} is known here (saved ones: 'soakline profile list'; "
+                    "the service's: GET /profiles)",
+                ),
             ]
         return [
             *problems,

@@ -244,13 +244,19 @@ def _read_text(file: Path) -> str:
         raise SpecError.single(f"{file}: cannot be read ({exc.strerror or exc})") from None
 
 
-def load_batch_file(path: str | os.PathLike[str], profiles: ProfileLookup | None = None) -> BatchSpec:
-    """Read and validate a batch file: JSON when it ends in .json, YAML otherwise."""
-    file = Path(path)
+def read_document(file: Path) -> tuple[str, object]:
+    """A file's text and the document it holds (JSON when it ends in .json, YAML otherwise); an empty
+    file, or one that holds no data, is a problem naming the file."""
     text = _read_text(file)
     if not text.strip():
         raise SpecError.single(f"{file}: the file is empty")
     doc = _parse_text(text, file)
     if doc is None:
         raise SpecError.single(f"{file}: the file holds no data (only comments?)")
+    return text, doc
+
+
+def load_batch_file(path: str | os.PathLike[str], profiles: ProfileLookup | None = None) -> BatchSpec:
+    """Read and validate a batch file: JSON when it ends in .json, YAML otherwise."""
+    _, doc = read_document(Path(path))
     return parse_batch(doc, profiles=profiles)

@@ -29,7 +29,7 @@ import yaml
 
 from models import limits, units
 from models.errors import Problem, SpecError
-from models.loading import _parse_text, _read_text, format_path, parse_batch
+from models.loading import _read_text, format_path, parse_batch, read_document
 from models.spec import BatchSpec
 
 __all__ = ["MIN_READINGS", "Record", "RecordPart", "Thermocouple", "load_record_file", "parse_record"]
@@ -380,11 +380,6 @@ def parse_record(doc: object, *, base: Path | None = None, lines: Mapping[int, i
 def load_record_file(path: str | Path) -> Record:
     """Read and validate a record file: JSON when it ends in .json, YAML otherwise."""
     file = Path(path)
-    text = _read_text(file)
-    if not text.strip():
-        raise SpecError.single(f"{file}: the file is empty")
-    doc = _parse_text(text, file)
-    if doc is None:
-        raise SpecError.single(f"{file}: the file holds no data (only comments?)")
+    text, doc = read_document(file)
     lines = _block_lines(text) if file.suffix.lower() != ".json" else {}
     return parse_record(doc, base=file.parent, lines=lines)

@@ -1,4 +1,5 @@
-"""Warnings on a part's composition: outside the range of a method its phase and hardness estimates use.
+"""Warnings on a part's composition: outside the range of a method its phase and hardness estimates use,
+and a composition given for a shape whose phases are not followed (blocks and short cylinders).
 
 The estimate is computed all the same; the warning names the part's field (its ``composition``, or its
 ``material`` when the grade's nominal chemistry is meant), the method and the elements outside its range,
@@ -21,7 +22,16 @@ def composition_warnings(spec: BatchSpec) -> list[Problem]:
     boron, boron_source = boron_threshold()
     for i, part in enumerate(spec.parts):
         data = part.composition_data
-        if data is None:
+        if part.composition is not None and not part.follows_phases:
+            found.append(
+                Problem(
+                    format_path(("parts", i, "composition")),
+                    f"phases are followed in plates and bars only: this {part.shape} keeps the single "
+                    "enthalpy curve and gets no phase or hardness estimate",
+                )
+            )
+            continue
+        if data is None or not part.follows_phases:
             continue
         field = "composition" if part.composition is not None else "material"
         whose = "" if part.composition is not None else f"{part.material_name}'s nominal composition: "

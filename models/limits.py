@@ -20,3 +20,4 @@ MAX_CARBON_PCT = 2.1  # above it the alloy is a cast iron, not a steel (from mem
 MAX_ELEMENT_PCT = 30.0
 MAX_ALLOY_PCT = 50.0  # all elements together
 GRAIN_SIZE_RANGE = (-1.0, 14.0)  # ASTM E112 numbers 00 (written -1) to 14 (from memory)
+HRC_RANGE = (20.0, 68.0)  # the Rockwell C rows of ASTM E140 in catalog/hardness.yaml (from memory)

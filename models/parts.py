@@ -20,7 +20,7 @@ from models.fields import (
     TemperatureText,
     check_material_name,
 )
-from models.targets import TargetSpec
+from models.targets import PHASE_KINDS, TargetSpec
 
 ShapeName = Literal["plate", "bar", "block", "cylinder"]
 SIZE_FIELDS = ("thickness", "width", "length", "diameter")
@@ -32,6 +32,7 @@ SIZES: dict[str, tuple[str, ...]] = {
 }
 _EXAMPLE_SIZE = {"thickness": "'50 mm'", "width": "'400 mm'", "length": "'1 m'", "diameter": "'80 mm'"}
 _WITH_CORNER = ("block", "cylinder")
+PHASE_SHAPES = ("plate", "bar")  # the 1-D layouts, whose march follows phases
 
 
 def _table(value: str | PropertyTable, kind: units.Kind) -> catalog.Table:
@@ -90,6 +91,45 @@ def _composition_rules(raw: Mapping[str, Any]) -> list[RuleProblem]:
     return []
 
 
+def _phase_target_rules(raw: Mapping[str, Any], shape: str) -> list[RuleProblem]:
+    """A hardness or martensite target needs phases followed: a plate or bar of a steel with a known
+    composition (the file's, or the catalog grade's nominal one) that transforms on quenching."""
+    targets = raw.get("targets")
+    if not isinstance(targets, list):
+        return []
+    phase = [
+        (i, kind)
+        for i, t in enumerate(targets)
+        if (rt := as_raw(t)) is not None
+        for kind in PHASE_KINDS
+        if rt.get(kind) is not None
+    ]
+    if not phase:
+        return []
+    why: str | None = None
+    if shape not in PHASE_SHAPES:
+        why = f"phases are followed in plates and bars only, not in a {shape}"
+    else:
+        name = raw.get("material")
+        if isinstance(name, str | int) and not isinstance(name, bool):
+            try:
+                data = catalog.get_material(str(name))
+            except ValueError:
+                return []  # the material field reports it
+            if data.austenitic:
+                why = f"{data.name} is an austenitic steel: it does not transform on quenching"
+            elif data.composition is None and raw.get("composition") is None:
+                why = (
+                    f"the catalog has no composition for {data.name}: give the heat's composition "
+                    "(C at least)"
+                )
+        elif raw.get("composition") is None:
+            why = "an inline material has no composition: give the heat's composition (C at least)"
+    if why is None:
+        return []
+    return [(("targets", i, kind), f"{kind} needs the steel's phases: {why}") for i, kind in phase]
+
+
 class PartSpec(SpecModel):
     """One part of the batch. Sizes by shape: plate thickness; bar diameter; block thickness, width and
     length; cylinder diameter and length."""
@@ -120,6 +160,7 @@ class PartSpec(SpecModel):
             if f not in needed and raw.get(f) is not None
         ]
         problems += _composition_rules(raw)
+        problems += _phase_target_rules(raw, shape)
         targets = raw.get("targets")
         if isinstance(targets, list):
             points = [(i, raw_target.get("at")) for i, t in enumerate(targets) if (raw_target := as_raw(t))]
@@ -183,6 +224,14 @@ class PartSpec(SpecModel):
         ]
         prefix = "dia " if self.shape in ("bar", "cylinder") else ""
         return prefix + f" {times} ".join(sizes)
+
+    @property
+    def follows_phases(self) -> bool:
+        """Whether the engine follows this part's phases: a plate or bar of a steel with a composition,
+        when the file gives the heat's composition or a hardness or martensite target (README,
+        "Phases and hardness"); every other part keeps the single enthalpy curve."""
+        wanted = self.composition is not None or any(t.is_phase for t in self.targets)
+        return wanted and self.shape in PHASE_SHAPES and self.composition_data is not None
 
     @property
     def composition_data(self) -> catalog.CompositionData | None:

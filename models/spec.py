@@ -15,8 +15,8 @@ from models import limits, units
 from models.base import Loc, RuleProblem, SpecModel, as_raw
 from models.fields import Text, check_text
 from models.parts import InlineMaterialSpec, PartSpec
-from models.steps import LowerFaceSpec, StepSpec
-from models.targets import TargetKind, TargetSpec
+from models.steps import LowerFaceSpec, StepSpec, quench_problem
+from models.targets import PHASE_KINDS, TargetKind, TargetSpec
 
 __all__ = [
     "BatchSpec",
@@ -82,11 +82,31 @@ def _seconds(text: object) -> float | None:
     return seconds if seconds > 0.0 else None
 
 
+def _celsius(text: object) -> float | None:
+    try:
+        return units.parse_temperature(text) if isinstance(text, str) else None
+    except ValueError:
+        return None
+
+
+def _not_quench(steps: list[tuple[int, Mapping[str, Any]]]) -> dict[str, str | None]:
+    """Each step name: why it is not a quench (``steps.quench_problem``), None when it is one."""
+    out: dict[str, str | None] = {}
+    before: float | None = None
+    for _, s in steps:
+        ambient = _celsius(s.get("ambient"))
+        if (name := _text(s.get("name"))) is not None:
+            out.setdefault(name, quench_problem(ambient, before))
+        before = ambient
+    return out
+
+
 def _target_rules(raw: Mapping[str, Any], steps: list[tuple[int, Mapping[str, Any]]]) -> list[RuleProblem]:
     durations: dict[str, float | None] = {}
     for _, s in steps:
         if (name := _text(s.get("name"))) is not None:
             durations.setdefault(name, _seconds(s.get("duration")))
+    not_quench = _not_quench(steps)
     known = ", ".join(durations) or "none"
     problems: list[RuleProblem] = []
     for i, part in _mappings(raw, "parts"):
@@ -98,6 +118,15 @@ def _target_rules(raw: Mapping[str, Any], steps: list[tuple[int, Mapping[str, An
             if step not in durations:
                 problems.append(((*loc, "step"), f"no step named '{step}' in the schedule; steps: {known}"))
                 continue
+            kind = next((k for k in PHASE_KINDS if target.get(k) is not None), None)
+            why = not_quench[step]
+            if kind is not None and why is not None:
+                problems.append(
+                    (
+                        (*loc, kind),
+                        f"{kind} is the estimate after a quench; step '{step}' is not one: {why}",
+                    )
+                )
             hold, step_s = _seconds(target.get("for")), durations[step]
             if hold is not None and step_s is not None and hold > step_s:
                 problems.append(

@@ -17,6 +17,26 @@ from models.fields import (
     Text,
 )
 
+# A quench ends in a bath or air at most this hot (common practice: water, polymer and oil run below about
+# 100 degC, martempering and austempering salts up to about 400 degC).
+QUENCH_MAX_AMBIENT_C = 400.0
+
+
+def quench_problem(ambient_c: float | None, before_c: float | None) -> str | None:
+    """Why a step whose ambient ends at ``ambient_c`` (after a step ending at ``before_c``, None for the
+    first step) is not a quench, or None when it is: its ambient is at most ``QUENCH_MAX_AMBIENT_C``
+    and colder than the step before's."""
+    if ambient_c is None:
+        return None  # the step's own ambient field reports it
+    if ambient_c > QUENCH_MAX_AMBIENT_C:
+        return f"its ambient is {ambient_c:g} degC; a quench ends at most {QUENCH_MAX_AMBIENT_C:g} degC"
+    if before_c is not None and ambient_c >= before_c:
+        return (
+            f"its ambient ({ambient_c:g} degC) is not colder than the step before's ({before_c:g} degC); "
+            "a quench follows the austenitizing soak"
+        )
+    return None
+
 
 def _one_of_htc_medium(raw: Mapping[str, Any]) -> list[RuleProblem]:
     has_htc, has_medium = raw.get("htc") is not None, raw.get("medium") is not None

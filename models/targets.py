@@ -1,14 +1,15 @@
-"""Targets a part must meet in a step: hold, stay below, fall below, core-surface difference, temper."""
+"""Targets a part must meet in a step: hold, stay below, fall below, core-surface difference, temper,
+and after a quench the predicted as-quenched hardness and martensite of a steel whose phases are followed."""
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 from enum import StrEnum
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import Field
+from pydantic import BeforeValidator, Field
 
-from models import catalog, units
+from models import catalog, limits, units
 from models.base import RuleProblem, SpecModel
 from models.fields import DurationText, PositiveNumber, TemperatureDeltaText, TemperatureText, Text
 
@@ -22,6 +23,8 @@ class TargetKind(StrEnum):
     MAX_DIFFERENCE = "max_difference"
     TEMPER_PARAMETER_MIN = "temper_parameter_min"
     TEMPER_PARAMETER_MAX = "temper_parameter_max"
+    HARDNESS_MIN = "hardness_min"
+    MARTENSITE_MIN = "martensite_min"
 
 
 KINDS = tuple(k.value for k in TargetKind)
@@ -33,7 +36,48 @@ _ALLOWS: dict[str, set[str]] = {
     "constant": {"temper_parameter_min", "temper_parameter_max"},
 }
 _EXAMPLE = {"for": "'30 min'", "within": "'8 min'"}
-_NEEDS_POINT = {"hold_above", "stay_below", "fall_below"}
+_NEEDS_POINT = {"hold_above", "stay_below", "fall_below", "hardness_min", "martensite_min"}
+# Targets read from the phases a march follows (README, "Phases and hardness"): after a quench step,
+# at the core or the surface, of a plate or bar of a steel with a composition.
+PHASE_KINDS = ("hardness_min", "martensite_min")
+PHASE_POINTS = ("core", "surface")
+
+
+def _number_with(value: object, suffixes: tuple[str, ...], example: str) -> float:
+    text = value
+    if isinstance(value, str):
+        text = value.strip()
+        for suffix in suffixes:
+            if text.upper().endswith(suffix.upper()):
+                text = text[: -len(suffix)].strip()
+                break
+    if isinstance(text, bool) or not isinstance(text, int | float | str):
+        raise ValueError(f"expected {example}, got {value!r}")
+    try:
+        return float(text)
+    except ValueError:
+        raise ValueError(f"expected {example}, got {value!r}") from None
+
+
+def _hrc(value: object) -> float:
+    number = _number_with(value, ("HRC",), "a Rockwell C hardness such as 45 or '45 HRC'")
+    low, high = limits.HRC_RANGE
+    if not low <= number <= high:
+        raise ValueError(
+            f"the Rockwell C scale used here runs from {low:g} to {high:g} HRC (ASTM E140), got {value!r}"
+        )
+    return number
+
+
+def _martensite_pct(value: object) -> float:
+    number = _number_with(value, ("%",), "a martensite share in % such as 90 or '90 %'")
+    if not 0.0 < number <= 100.0:
+        raise ValueError(f"a martensite share is above 0 and at most 100 %, got {value!r}")
+    return number
+
+
+HrcValue = Annotated[float, BeforeValidator(_hrc)]
+MartensitePct = Annotated[float, BeforeValidator(_martensite_pct)]
 
 
 class TargetSpec(SpecModel):
@@ -55,6 +99,8 @@ class TargetSpec(SpecModel):
     temper_parameter_min: PositiveNumber | None = None
     temper_parameter_max: PositiveNumber | None = None
     constant: PositiveNumber | None = None
+    hardness_min: HrcValue | None = None
+    martensite_min: MartensitePct | None = None
 
     @classmethod
     def _rules(cls, raw: Mapping[str, Any]) -> list[RuleProblem]:
@@ -71,7 +117,15 @@ class TargetSpec(SpecModel):
             if raw.get(extra) is not None and kind not in kinds:
                 problems.append(((extra,), f"only used with {' or '.join(sorted(kinds))}, not with {kind}"))
         if kind in _NEEDS_POINT and raw.get("at") is None:
-            problems.append((("at",), "required: core, surface, corner or underside"))
+            where = "core or surface" if kind in PHASE_KINDS else "core, surface, corner or underside"
+            problems.append((("at",), f"required: {where}"))
+        if kind in PHASE_KINDS and raw.get("at") not in (None, *PHASE_POINTS):
+            problems.append(
+                (
+                    ("at",),
+                    f"{kind} is read where the phases are followed: core or surface, not {raw.get('at')}",
+                )
+            )
         if kind == "max_difference" and raw.get("at") == "core":
             problems.append(
                 (
@@ -91,6 +145,18 @@ class TargetSpec(SpecModel):
         if self.at is not None:
             return self.at
         return "surface" if self.kind is TargetKind.MAX_DIFFERENCE else "core"
+
+    @property
+    def is_phase(self) -> bool:
+        """Read from the phases (hardness or martensite), not from a temperature history."""
+        return self.kind.value in PHASE_KINDS
+
+    @property
+    def phase_limit(self) -> float | None:
+        """The HRC of a hardness_min target, the fraction (0-1) of a martensite_min target."""
+        if self.hardness_min is not None:
+            return self.hardness_min
+        return None if self.martensite_min is None else self.martensite_min / 100.0
 
     @property
     def limit_c(self) -> float | None:

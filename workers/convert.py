@@ -2,15 +2,17 @@
 
 The catalogs and the spec give SI values; this module only reshapes them: catalog tables become
 engine ``Curve``s, a step's constant ``htc`` becomes a one-point curve, a medium's h(T_surface) table
-its curve, and a plate's different lower face the step's ``second_face``.
+its curve, and a plate's different lower face the step's ``second_face``. A part whose phases are
+followed (``PartSpec.follows_phases``) carries its composition.
 """
 
 from __future__ import annotations
 
 from models import BatchSpec, LowerFaceSpec, MaterialData, PartSpec, StepSpec, Table
 from workers.thermal import Curve, Face, Material, PartThermal, Shape, Step
+from workers.thermal.phases import Composition
 
-__all__ = ["engine_inputs", "to_face", "to_material", "to_part", "to_step"]
+__all__ = ["engine_inputs", "steel_of", "to_face", "to_material", "to_part", "to_step"]
 
 # The engine takes density as one number; catalog tables start near room temperature.
 _DENSITY_AT_C = 20.0
@@ -48,11 +50,20 @@ def to_step(step: StepSpec) -> Step:
     )
 
 
+def steel_of(part: PartSpec) -> Composition | None:
+    """The composition the engine follows the part's phases with, or None (the single curve)."""
+    data = part.composition_data
+    if data is None or not part.follows_phases:
+        return None
+    return Composition(**data.values, grain_size=data.grain_size)
+
+
 def to_part(part: PartSpec) -> PartThermal:
     return PartThermal(
         shape=Shape(kind=part.shape, half_sizes_m=part.half_sizes_m),
         material=to_material(part.material_data),
         initial_c=part.initial_c,
+        composition=steel_of(part),
     )
 
 

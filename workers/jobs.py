@@ -15,7 +15,7 @@ import numpy as np
 
 from models import BatchSpec, PartSpec, SpecError, TargetSpec, target_warnings
 from models.results import BatchResult, PartResult, StepWindow, TraceBody, WarningBody
-from workers.convert import engine_inputs, to_part, to_step
+from workers.convert import engine_inputs, steel_of, to_part, to_step
 from workers.targets import Check, Target, evaluate
 from workers.thermal import PartThermal, Step, Tolerance, Trace, simulate
 
@@ -61,6 +61,8 @@ def to_target(spec: TargetSpec, batch: BatchSpec) -> Target:
         limit = spec.max_difference_k
     elif kind.startswith("temper_parameter"):
         limit = spec.parameter
+    elif spec.is_phase:
+        limit = spec.phase_limit
     else:
         limit = spec.limit_c
     assert limit is not None  # the models guarantee the kind's value
@@ -78,7 +80,10 @@ def to_target(spec: TargetSpec, batch: BatchSpec) -> Target:
 
 def part_checks(batch: BatchSpec, part: PartSpec, trace: Trace, step: str | None = None) -> list[Check]:
     """Every target of ``part`` (only those of ``step`` when given) checked against its trace."""
-    return [evaluate(to_target(t, batch), trace) for t in part.targets if step is None or t.step == step]
+    steel = steel_of(part)
+    return [
+        evaluate(to_target(t, batch), trace, steel) for t in part.targets if step is None or t.step == step
+    ]
 
 
 # -- results ------------------------------------------------------------------------------------------

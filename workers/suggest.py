@@ -58,7 +58,10 @@ Method = Literal["exact", "search", "none"]
 # A longer step helps a hold and a minimum temper; it helps a fall only while the step is shorter than
 # the time allowed (the crossing itself does not move). Every other miss at one duration is a miss at
 # every longer one.
-_HELPED_BY_LONGER = ("hold_above", "temper_parameter_min")
+# A hardness or martensite minimum is read at the step's end: a longer quench lets the austenite finish
+# transforming and cools further below Ms (more martensite), so it helps those too, but the estimate at
+# every shorter end is not in one run's samples: a step with such targets is searched.
+_HELPED_BY_LONGER = ("hold_above", "temper_parameter_min", "hardness_min", "martensite_min")
 
 
 class _Runs:
@@ -413,6 +416,8 @@ def suggest(
     spec = batch.step(step)
     if spec.ambient_start_c is not None and spec.ambient_start_c != spec.ambient_c:
         return _search(runs, step, "the step ramps, so its history depends on its length")
+    if any(t.is_phase for p in runs.parts for t in p.targets if t.step == step):
+        return _search(runs, step, "a hardness or martensite target is read at the step's end")
     if method == "auto":
         found = _exact(runs, step)
         if found is not None:

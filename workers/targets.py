@@ -10,6 +10,10 @@ Conventions (each is a choice a reviewer may want to know):
 - Between samples temperatures are linear, so crossings are interpolated linearly.
 - hold_above counts the longest continuous time at or above the temperature, starting when the location
   reaches it, not when the furnace does (common practice: soak counts from the part).
+- hardness_min and martensite_min read the phases the engine followed (a part with a composition) at
+  the target step's end: Maynier's hardness from the fractions and the point's cooling rate at 700 degC,
+  in HRC by ASTM E140 (``models.phasedata``); a point whose austenite has not finished transforming
+  (still above Ms at the step's end) has no as-quenched estimate yet, and misses the target.
 - The tempering parameter is Hollomon-Jaffe P = T (C + log10 t), T in kelvin, t in hours (read: the
   Hollomon-Jaffe tempering parameter, heat-treating references), summed over the real history by
   equivalent time.
@@ -24,14 +28,24 @@ from typing import Literal
 import numpy as np
 from numpy.typing import NDArray
 
+from models.phasedata import hv_to_hrc
 from models.results import CheckBody, FlagBody
 from workers.thermal import Trace
 from workers.thermal.constants import KELVIN
+from workers.thermal.phases import Composition
+from workers.thermal.phases.estimate import PointEstimate, point_estimate
 from workers.wording import Facts, TempUnit, Texts, describe, format_duration, format_temperature
 
 FloatArray = NDArray[np.float64]
 Kind = Literal[
-    "hold_above", "stay_below", "fall_below", "max_difference", "temper_parameter_min", "temper_parameter_max"
+    "hold_above",
+    "stay_below",
+    "fall_below",
+    "max_difference",
+    "temper_parameter_min",
+    "temper_parameter_max",
+    "hardness_min",
+    "martensite_min",
 ]
 Point = Literal["core", "surface", "corner", "underside"]
 MissSpans = tuple[tuple[float, float], ...]
@@ -57,6 +71,7 @@ __all__ = [
     "max_difference",
     "miss_spans",
     "peak",
+    "phase_estimate",
     "step_window",
     "tempering_parameter",
     "tempering_parameters",
@@ -368,7 +383,59 @@ def _temper(target: Target, t: FloatArray, temp: FloatArray) -> Check:
     return _make(target, margin >= 0.0, (margin, ""), facts)
 
 
-def _check(target: Target, t: FloatArray, idx: NDArray[np.intp], trace: Trace) -> Check:
+def phase_estimate(trace: Trace, steel: Composition, step_index: int, at: Point) -> PointEstimate:
+    """The as-quenched estimate at ``at`` (core or surface) at the end of step ``step_index``."""
+    ph = trace.phases
+    if ph is None:
+        raise ValueError("the part's phases were not followed (no composition, or not a plate or bar)")
+    if at == "core":
+        frac, rate, temp = ph.core[step_index], ph.core_rate700[step_index], trace.core_c
+    elif at == "surface":
+        frac, rate, temp = ph.surface[step_index], ph.surface_rate700[step_index], trace.surface_c
+    else:
+        raise ValueError(f"phases are followed at the core and the surface, not at the {at}")
+    end = int(np.nonzero(trace.step_index == step_index)[0][-1])
+    return point_estimate(steel, frac, float(rate), float(temp[end]))
+
+
+def estimate_facts(e: PointEstimate) -> dict[str, float | None]:
+    """The numbers a phase target's texts are said from (``workers.wording``)."""
+    return {
+        "hv": e.hv,
+        "hrc": None if e.hv is None else hv_to_hrc(e.hv),
+        "martensite": e.martensite,
+        "bainite": e.bainite,
+        "ferrite_pearlite": e.ferrite_pearlite,
+        "austenite": e.austenite,
+        "rate_k_s": e.rate700_k_s,
+        "temp_c": e.temp_c,
+        "ms_c": e.ms_c,
+        "unsettled": 1.0 if e.unsettled else 0.0,
+    }
+
+
+def _phase(target: Target, e: PointEstimate) -> Check:
+    facts = {"limit": target.limit, **estimate_facts(e)}
+    if e.unsettled or e.hv is None:
+        return _make(target, False, (0.0, "HRC" if target.kind == "hardness_min" else "%"), facts)
+    if target.kind == "martensite_min":
+        margin = e.martensite - target.limit
+        return _make(target, margin >= 0.0, (100.0 * margin, "%"), facts)
+    hrc = facts["hrc"]
+    value = HRC_FLOOR if hrc is None else hrc
+    return _make(target, hrc is not None and hrc >= target.limit, (value - target.limit, "HRC"), facts)
+
+
+HRC_FLOOR = 20.0  # the lowest Rockwell C the conversion gives (ASTM E140)
+
+
+def _check(
+    target: Target, t: FloatArray, idx: NDArray[np.intp], trace: Trace, steel: Composition | None = None
+) -> Check:
+    if target.kind in ("hardness_min", "martensite_min"):
+        if steel is None:
+            raise ValueError(f"{target.kind} needs the steel's composition")
+        return _phase(target, phase_estimate(trace, steel, target.step_index, target.at))
     if target.kind == "max_difference":
         return _difference(target, t, trace.core_c[idx], _location(trace, target.at)[idx])
     temp = _location(trace, target.at)[idx]
@@ -410,10 +477,11 @@ def miss_spans(target: Target, check: Check, t: FloatArray, idx: NDArray[np.intp
     return tuple((round(a, 1), round(b, 1)) for a, b in spans)
 
 
-def evaluate(target: Target, trace: Trace) -> Check:
+def evaluate(target: Target, trace: Trace, steel: Composition | None = None) -> Check:
     """Apply one target to one part's trace, within the target's step; missed temperature targets carry
-    the spans of the trace where they are missed."""
+    the spans of the trace where they are missed. ``steel``: the composition whose phases the trace
+    followed, for hardness and martensite targets."""
     t, idx = step_window(trace, target.step_index)
-    check = _check(target, t, idx, trace)
+    check = _check(target, t, idx, trace, steel)
     misses = miss_spans(target, check, t, idx, trace)
     return replace(check, misses=misses) if misses else check

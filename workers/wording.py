@@ -13,6 +13,10 @@ Facts by target:
   ``temp_c`` there
 - max_difference: ``limit_k``, ``worst_k``, ``worst_s``
 - temper_parameter_min / _max: ``limit``, ``value``, ``constant``
+- hardness_min / martensite_min: ``limit`` (HRC, or the martensite fraction 0-1), ``hv``, ``hrc`` (None
+  below 20 HRC), the fractions ``martensite``, ``bainite``, ``ferrite_pearlite``, ``austenite``,
+  ``rate_k_s`` (cooling rate at 700 degC), ``temp_c`` and ``ms_c`` at the step's end, ``unsettled`` (1:
+  austenite still above Ms, no as-quenched estimate)
 """
 
 from __future__ import annotations
@@ -180,6 +184,63 @@ def _temper(at: str, target: str, facts: Facts) -> Texts:
     )
 
 
+def _pct(fraction: float, signed: bool = False) -> str:
+    return f"{'+' if signed and fraction >= 0 else ''}{_trim(100.0 * fraction, 0)} %"
+
+
+def _structure(facts: Facts) -> str:
+    parts = [
+        f"martensite {_pct(_f(facts, 'martensite'))}",
+        f"bainite {_pct(_f(facts, 'bainite'))}",
+        f"ferrite+pearlite {_pct(_f(facts, 'ferrite_pearlite'))}",
+        f"retained austenite {_pct(_f(facts, 'austenite'))}",
+    ]
+    return ", ".join(parts)
+
+
+def _unsettled(at: str, step: str, facts: Facts, unit: TempUnit) -> str:
+    return (
+        f"{at} still {format_temperature(_f(facts, 'temp_c'), unit)} at the end of {step}, above its Ms "
+        f"{format_temperature(_f(facts, 'ms_c'), unit)} with {_pct(_f(facts, 'austenite'))} austenite "
+        "untransformed: no as-quenched estimate yet (a longer quench lets it finish)"
+    )
+
+
+def _hardness(at: str, step: str, facts: Facts, unit: TempUnit) -> Texts:
+    limit = _f(facts, "limit")
+    required = f">= {_trim(limit, 1)} HRC after {step}"
+    if facts.get("unsettled") or facts.get("hv") is None:
+        return Texts(required, "no estimate", "unknown", _unsettled(at, step, facts, unit))
+    hv, hrc = _f(facts, "hv"), facts.get("hrc")
+    said = (
+        f"{_trim(hv, 0)} HV, below 20 HRC"
+        if hrc is None
+        else f"{_trim(float(hrc), 1)} HRC ({_trim(hv, 0)} HV)"
+    )
+    margin_hrc = (20.0 if hrc is None else float(hrc)) - limit
+    margin = f"{'< ' if hrc is None else ''}{'+' if margin_hrc >= 0 else ''}{_trim(margin_hrc, 1)} HRC"
+    met = hrc is not None and float(hrc) >= limit
+    message = (
+        f"{at} predicted {said} as quenched, {'meets' if met else 'below'} the minimum {_trim(limit, 1)} HRC "
+        f"({_structure(facts)}; cooling {_trim(_f(facts, 'rate_k_s'), 1)} K/s at 700 degC)"
+    )
+    return Texts(required, f"predicted {said}", margin, message)
+
+
+def _martensite(at: str, step: str, facts: Facts, unit: TempUnit) -> Texts:
+    limit = _f(facts, "limit")
+    required = f">= {_pct(limit)} martensite after {step}"
+    if facts.get("unsettled") or facts.get("hv") is None:
+        return Texts(required, "no estimate", "unknown", _unsettled(at, step, facts, unit))
+    found = _f(facts, "martensite")
+    met = found >= limit
+    message = (
+        f"{at} predicted {_pct(found)} martensite, {'meets' if met else 'below'} the minimum {_pct(limit)} "
+        f"({_structure(facts)})"
+    )
+    return Texts(required, f"predicted {_pct(found)} martensite", _pct(found - limit, signed=True), message)
+
+
 def describe(target: str, at: str, step: str, facts: Facts, unit: TempUnit = "degC") -> Texts:
     """The texts of one outcome from its facts, temperatures in ``unit``."""
     if target == "hold_above":
@@ -190,4 +251,8 @@ def describe(target: str, at: str, step: str, facts: Facts, unit: TempUnit = "de
         return _fall(at, step, facts, unit)
     if target == "max_difference":
         return _difference(at, step, facts, unit)
+    if target == "hardness_min":
+        return _hardness(at, step, facts, unit)
+    if target == "martensite_min":
+        return _martensite(at, step, facts, unit)
     return _temper(at, target, facts)

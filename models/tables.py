@@ -133,9 +133,10 @@ class Batch(Base):
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     label: Mapped[str] = mapped_column(String(200))
     status: Mapped[str] = mapped_column(String(16), default=BatchStatus.QUEUED, index=True)
-    spec: Mapped[dict[str, Any]] = mapped_column(JsonType)
+    # Both documents are read only when used (deferred): a 5,000-part batch's are megabytes.
+    spec: Mapped[dict[str, Any]] = mapped_column(JsonType, deferred=True)
     # None only for a batch stored before this column whose file no longer validated at the upgrade.
-    resolved: Mapped[dict[str, Any] | None] = mapped_column(JsonType)
+    resolved: Mapped[dict[str, Any] | None] = mapped_column(JsonType, deferred=True)
     durations: Mapped[dict[str, str]] = mapped_column(JsonType, default=dict)
     parent_id: Mapped[int | None] = mapped_column(ForeignKey("batches.id"), index=True)
     part_count: Mapped[int] = mapped_column(Integer)

@@ -68,28 +68,36 @@ def is_transient(exc: BaseException) -> bool:
 
 _SpecKey = tuple[str, int, str]
 _specs: dict[_SpecKey, BatchSpec] = {}
-_specs_lock = threading.Lock()  # the in-process runner calls this from several threads
+_specs_lock = threading.Lock()  # the in-process runner and the API's threads call this at once
 _SPEC_CACHE_SIZE = 32
+_SPEC_CACHE_PARTS = 50_000  # and at most this many parts in all (a spec is a few kB per part)
 
 
-def load_batch_spec(session: Session, batch_id: int, database_url: str) -> BatchSpec:
-    """The resolved spec of a stored batch, as validated at submit (no validation here).
+def batch_spec(batch: Batch, database_url: str) -> BatchSpec:
+    """The resolved spec of a stored batch row, as validated at submit (no validation here).
 
     A stored batch never changes, so its spec is kept per process, keyed by database, id and creation
     time (ids restart in a recreated database): a 500-part batch is read once per worker process, not
-    once per part.
+    once per part, and the pages of a 5,000-part batch rebuild it once, not at every view. The stored
+    JSON (a deferred column) is only read on a miss.
     """
-    created = session.scalar(select(Batch.created_at).where(Batch.id == batch_id))
-    key = (database_url, batch_id, str(created))
+    key = (database_url, batch.id, str(batch.created_at))
     with _specs_lock:
         if key in _specs:
             return _specs[key]
-    spec = stored_spec(session.get_one(Batch, batch_id))
+    spec = stored_spec(batch)
     with _specs_lock:
-        if len(_specs) >= _SPEC_CACHE_SIZE:
-            _specs.pop(next(iter(_specs)))
         _specs[key] = spec
+        while len(_specs) > _SPEC_CACHE_SIZE or (
+            len(_specs) > 1 and sum(len(s.parts) for s in _specs.values()) > _SPEC_CACHE_PARTS
+        ):
+            _specs.pop(next(iter(_specs)))
     return spec
+
+
+def load_batch_spec(session: Session, batch_id: int, database_url: str) -> BatchSpec:
+    """The resolved spec of the stored batch ``batch_id`` (see :func:`batch_spec`)."""
+    return batch_spec(session.get_one(Batch, batch_id), database_url)
 
 
 # -- computing ----------------------------------------------------------------------------------------

@@ -25,7 +25,15 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Literal
 
-__all__ = ["TEMP_UNITS", "TempUnit", "Texts", "describe", "format_duration", "format_temperature"]
+__all__ = [
+    "TEMP_UNITS",
+    "TempUnit",
+    "Texts",
+    "describe",
+    "describe_margin",
+    "format_duration",
+    "format_temperature",
+]
 
 TempUnit = Literal["degC", "degF"]
 TEMP_UNITS: tuple[TempUnit, ...] = ("degC", "degF")
@@ -256,3 +264,13 @@ def describe(target: str, at: str, step: str, facts: Facts, unit: TempUnit = "de
     if target == "martensite_min":
         return _martensite(at, step, facts, unit)
     return _temper(at, target, facts)
+
+
+def describe_margin(value: float, margin_unit: str, said: str, unit: TempUnit = "degC") -> str:
+    """The margin text of :func:`describe` from a check's ``margin_value``, ``margin_unit`` and its
+    stored margin ``said`` (said in degC): what a long table of margins needs, without saying the other
+    three texts. Only a temperature difference (K) reads differently in degF; a time, a tempering
+    parameter, a hardness or a fraction reads the same in either unit."""
+    if margin_unit == "K":
+        return format_difference(value, unit, signed=True)
+    return said

@@ -10,10 +10,10 @@ import logging
 from collections import defaultdict
 from collections.abc import Callable, Mapping, Sequence
 from datetime import timedelta
-from typing import Any, cast
+from typing import Any, NamedTuple, cast
 
 from sqlalchemy import func, insert, select
-from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.orm import Session
 
 from models import BatchSpec, SpecError, parse_batch, with_durations
 from models.limits import MAX_PARTS
@@ -50,7 +50,7 @@ from scheduler.api.schemas import (
     PartFlags,
     PartSummary,
 )
-from workers.runner import load_batch_spec
+from workers.runner import batch_spec, load_batch_spec
 from workers.suggest import suggest as suggest_step
 
 __all__ = [
@@ -66,6 +66,8 @@ __all__ = [
     "open_flag_counts",
     "part_checks",
     "part_result",
+    "part_results",
+    "part_states",
     "rerun",
     "rerun_ids",
     "submit",
@@ -216,7 +218,7 @@ def get_batch_record(session: Session, batch_id: int) -> tuple[Batch, BatchSpec]
     """A stored batch and its resolved spec, read as validated at submit (the pages' way to load one)."""
     batch = _batch(session, batch_id)
     try:
-        return batch, stored_spec(batch)
+        return batch, batch_spec(batch, session.get_bind().engine.url.render_as_string())
     except SpecError as exc:
         raise InvalidInput(f"batch {batch_id} cannot be shown", _spec_problems(exc)) from None
 
@@ -244,54 +246,77 @@ def _summary(batch: Batch) -> BatchSummary:
     )
 
 
-def _flag_view(flag: Flag) -> dict[str, Any]:
-    return {**flag.body, "flag_id": flag.id, "status": flag.status}
+def _flag_views(
+    session: Session, batch_id: int, part_ids: Sequence[str] | None = None
+) -> dict[str, list[dict[str, Any]]]:
+    """The flags of a batch (or of some of its parts) by part, each with its id and review status: one
+    query of plain columns, no ORM objects."""
+    query = select(Flag.part_id, Flag.id, Flag.status, Flag.body).where(Flag.batch_id == batch_id)
+    if part_ids is not None:
+        query = query.where(Flag.part_id.in_(list(part_ids)))
+    flags: dict[str, list[dict[str, Any]]] = defaultdict(list)
+    for part_id, flag_id, status, body in session.execute(query.order_by(Flag.part_id, Flag.seq)):
+        flags[part_id].append({**body, "flag_id": flag_id, "status": status})
+    return flags
 
 
 def _part_flags(session: Session, batch_id: int) -> tuple[dict[str, bool], dict[str, list[dict[str, Any]]]]:
     rows = session.execute(select(Result.part_id, Result.flagged).where(Result.batch_id == batch_id))
     flagged = {part_id: bool(is_flagged) for part_id, is_flagged in rows}
-    flags: dict[str, list[dict[str, Any]]] = defaultdict(list)
-    for flag in session.scalars(
-        select(Flag).where(Flag.batch_id == batch_id).order_by(Flag.part_id, Flag.seq)
-    ):
-        flags[flag.part_id].append(_flag_view(flag))
-    return flagged, flags
+    return flagged, _flag_views(session, batch_id)
+
+
+class PartState(NamedTuple):
+    """One part of a batch as the API's batch lists it (the pages read thousands of these: no model)."""
+
+    id: str
+    status: JobStatus
+    flagged: bool | None  # None until the part has a result
+    flags: list[dict[str, Any]]
+    error: str | None
+
+
+def part_states(session: Session, batch_id: int) -> list[PartState]:
+    """Per part of a stored batch, in file order: its job's status and error, and once computed whether
+    it is flagged and its flags (each with its id and review status)."""
+    # Three single-table reads joined here: a join in the database may be planned as nested loops
+    # (quadratic) while a new batch's rows are not yet in the table statistics.
+    order = session.scalars(
+        select(Part.part_id).where(Part.batch_id == batch_id).order_by(Part.position)
+    ).all()
+    jobs = {
+        part_id: (status, error)
+        for part_id, status, error in session.execute(
+            select(Job.part_id, Job.status, Job.error).where(Job.batch_id == batch_id)
+        )
+    }
+    found = session.execute(select(Result.part_id, Result.flagged).where(Result.batch_id == batch_id))
+    flagged = {part_id: bool(is_flagged) for part_id, is_flagged in found}
+    flags = _flag_views(session, batch_id)
+    return [
+        PartState(pid, JobStatus(jobs[pid][0]), flagged.get(pid), flags.get(pid, []), jobs[pid][1])
+        for pid in order
+    ]
 
 
 def get_batch(session: Session, batch_id: int) -> BatchPublic:
     """Status of a batch and, per part in file order, its job status and flags."""
     batch = _batch(session, batch_id)
-    jobs = {j.part_id: j for j in session.scalars(select(Job).where(Job.batch_id == batch_id))}
-    order = session.scalars(
-        select(Part.part_id).where(Part.batch_id == batch_id).order_by(Part.position)
-    ).all()
-    flagged, flags = _part_flags(session, batch_id)
-    parts = [
-        PartSummary(
-            id=pid,
-            status=JobStatus(jobs[pid].status),
-            flagged=flagged.get(pid),
-            flags=flags.get(pid, []),
-            error=jobs[pid].error,
-        )
-        for pid in order
-    ]
+    states = part_states(session, batch_id)
     return BatchPublic(
         **_summary(batch).model_dump(),
-        done_count=len(flagged),
-        flagged_count=sum(1 for f in flagged.values() if f),
-        parts=parts,
+        done_count=sum(1 for s in states if s.flagged is not None),
+        flagged_count=sum(1 for s in states if s.flagged),
+        parts=[PartSummary(**s._asdict()) for s in states],
     )
 
 
 def part_result(session: Session, batch_id: int, part_id: str) -> PartResult:
     """The stored result of one part, trace included; its flags carry their id and review status."""
     _batch(session, batch_id)
-    result = session.scalar(select(Result).where(Result.batch_id == batch_id, Result.part_id == part_id))
-    if result is not None:
-        _, flags = _part_flags(session, batch_id)
-        return cast(PartResult, {**result.body, "flags": flags.get(part_id, [])})
+    found = part_results(session, batch_id, [part_id])
+    if found:
+        return found[0]
     job = session.scalar(select(Job).where(Job.batch_id == batch_id, Job.part_id == part_id))
     if job is None:
         raise PartNotFound(batch_id, part_id)
@@ -309,6 +334,19 @@ def _disposition(d: Disposition) -> DispositionPublic:
     )
 
 
+_FLAG_COLUMNS = (
+    Flag.id,
+    Flag.batch_id,
+    Flag.part_id,
+    Flag.step,
+    Flag.at,
+    Flag.target,
+    Flag.status,
+    Flag.body,
+)
+_CHUNK = 5000  # ids per IN list
+
+
 def list_flags(
     session: Session,
     batch_id: int | None,
@@ -318,8 +356,9 @@ def list_flags(
     part_id: str | None = None,
 ) -> FlagPage:
     """Flags across batches, newest batch first, each with its dispositions; ``status`` None means
-    every status, ``part_id`` (with ``batch_id``) one part's."""
-    query = select(Flag)
+    every status, ``part_id`` (with ``batch_id``) one part's. Plain columns, no ORM objects: a report
+    lists thousands."""
+    query = select(*_FLAG_COLUMNS)
     if batch_id is not None:
         query = query.where(Flag.batch_id == batch_id)
     if part_id is not None:
@@ -327,45 +366,54 @@ def list_flags(
     if status is not None:
         query = query.where(Flag.status == status)
     total = session.scalar(select(func.count()).select_from(query.subquery())) or 0
-    rows = session.scalars(
-        query.options(selectinload(Flag.dispositions))
-        .order_by(Flag.batch_id.desc(), Flag.part_id, Flag.seq)
-        .limit(limit)
-        .offset(offset)
+    rows = session.execute(
+        query.order_by(Flag.batch_id.desc(), Flag.part_id, Flag.seq).limit(limit).offset(offset)
     ).all()
-    found = session.execute(select(Batch.id, Batch.label).where(Batch.id.in_({f.batch_id for f in rows})))
+    return FlagPage(items=_flags_public(session, rows), total=total, limit=limit, offset=offset)
+
+
+def _flags_public(session: Session, rows: Sequence[Any]) -> list[FlagPublic]:
+    """Flags (rows of ``_FLAG_COLUMNS``) with their batch's label and their dispositions, oldest first."""
+    found = session.execute(select(Batch.id, Batch.label).where(Batch.id.in_({r.batch_id for r in rows})))
     labels = {batch_id: label for batch_id, label in found}
-    items = [_flag_public(f, labels.get(f.batch_id, "")) for f in rows]
-    return FlagPage(items=items, total=total, limit=limit, offset=offset)
-
-
-def _flag_public(f: Flag, batch_label: str) -> FlagPublic:
-    return FlagPublic(
-        id=f.id,
-        batch=f.batch_id,
-        batch_label=batch_label,
-        part=f.part_id,
-        step=f.step,
-        at=f.at,
-        target=f.target,
-        required=f.body.get("required"),
-        achieved=f.body.get("achieved"),
-        margin=f.body.get("margin"),
-        margin_value=f.body.get("margin_value"),
-        margin_unit=f.body.get("margin_unit"),
-        message=f.body.get("message"),
-        facts=f.body.get("facts"),
-        status=FlagStatus(f.status),
-        dispositions=[_disposition(d) for d in f.dispositions],
-    )
+    decided: dict[int, list[DispositionPublic]] = defaultdict(list)
+    ids = [r.id for r in rows]
+    for start in range(0, len(ids), _CHUNK):
+        for d in session.scalars(
+            select(Disposition)
+            .where(Disposition.flag_id.in_(ids[start : start + _CHUNK]))
+            .order_by(Disposition.id)
+        ):
+            decided[d.flag_id].append(_disposition(d))
+    return [
+        FlagPublic(
+            id=r.id,
+            batch=r.batch_id,
+            batch_label=labels.get(r.batch_id, ""),
+            part=r.part_id,
+            step=r.step,
+            at=r.at,
+            target=r.target,
+            required=r.body.get("required"),
+            achieved=r.body.get("achieved"),
+            margin=r.body.get("margin"),
+            margin_value=r.body.get("margin_value"),
+            margin_unit=r.body.get("margin_unit"),
+            message=r.body.get("message"),
+            facts=r.body.get("facts"),
+            status=FlagStatus(r.status),
+            dispositions=decided.get(r.id, []),
+        )
+        for r in rows
+    ]
 
 
 def get_flag(session: Session, flag_id: int) -> FlagPublic:
     """One flag with its batch, part and dispositions."""
-    flag = session.scalar(select(Flag).where(Flag.id == flag_id).options(selectinload(Flag.dispositions)))
-    if flag is None:
+    row = session.execute(select(*_FLAG_COLUMNS).where(Flag.id == flag_id)).first()
+    if row is None:
         raise FlagNotFound(flag_id)
-    return _flag_public(flag, _batch(session, flag.batch_id).label)
+    return _flags_public(session, [row])[0]
 
 
 def open_flag_counts(session: Session, batch_ids: Sequence[int]) -> dict[int, int]:
@@ -383,10 +431,24 @@ def rerun_ids(session: Session, batch_id: int) -> list[int]:
     return list(session.scalars(select(Batch.id).where(Batch.parent_id == batch_id).order_by(Batch.id)))
 
 
+def part_results(session: Session, batch_id: int, part_ids: Sequence[str]) -> list[PartResult]:
+    """The stored results of some parts of a batch (those computed, in the order asked), traces
+    included, each flag with its id and review status: two queries however many parts."""
+    found = session.execute(
+        select(Result.part_id, Result.body).where(
+            Result.batch_id == batch_id, Result.part_id.in_(list(part_ids))
+        )
+    )
+    bodies = {part_id: body for part_id, body in found}
+    flags = _flag_views(session, batch_id, list(bodies)) if bodies else {}
+    return [cast(PartResult, {**bodies[p], "flags": flags.get(p, [])}) for p in part_ids if p in bodies]
+
+
 def part_checks(session: Session, batch_id: int) -> dict[str, list[CheckBody]]:
-    """Every computed part's checks (each target, pass or fail), by part id."""
-    rows = session.execute(select(Result.part_id, Result.body).where(Result.batch_id == batch_id))
-    return {part_id: list(body.get("checks", [])) for part_id, body in rows}
+    """Every computed part's checks (each target, pass or fail), by part id. Only the checks are read
+    from the stored results (a JSON path in the query), never their traces."""
+    rows = session.execute(select(Result.part_id, Result.body["checks"]).where(Result.batch_id == batch_id))
+    return {part_id: list(checks or []) for part_id, checks in rows}
 
 
 def add_disposition(

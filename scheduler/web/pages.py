@@ -50,9 +50,9 @@ ALL = 1_000_000  # a page lists every flag of its batch or part
 
 
 def _rows(session: SessionDep, batch_id: int, spec: BatchSpec, units: Units) -> list[views.PartRow]:
-    """The parts table of a batch: its status per part (the API's batch) and each part's checks."""
+    """The parts table of a batch: its status per part (as the API's batch) and each part's checks."""
     return views.part_rows(
-        service.get_batch(session, batch_id), spec, service.part_checks(session, batch_id), units
+        service.part_states(session, batch_id), spec, service.part_checks(session, batch_id), units
     )
 
 
@@ -211,18 +211,19 @@ def report(request: Request, batch_id: BatchId, session: SessionDep, user: WebUs
     units = units_from(request)
     flags = service.list_flags(session, batch_id, None, ALL, 0).items
     rows = _rows(session, batch_id, spec, units)
-    # Curves of the flagged parts only: they are what the report is read for, and a batch may be large.
-    charts = [
-        views.chart_payload(service.part_result(session, batch_id, r.id), units) for r in rows if r.flagged
-    ][:REPORT_CHARTS]
+    # Curves of the first flagged parts only: they are what the report is read for, and a batch may be
+    # large (their results are read in one query, the others' traces never).
+    shown = [r.id for r in rows if r.flagged][:REPORT_CHARTS]
+    charts = [views.chart_payload(body, units) for body in service.part_results(session, batch_id, shown)]
     return _page(
         request,
         "report.html",
         user,
         batch=batch,
         rows=rows,
+        marks=[views.check_marks(r.checks, units) for r in rows],
         schedule=views.schedule_rows(spec, units),
-        flags=flags,
+        flags=views.flag_lines(flags, units),
         charts=charts,
     )
 

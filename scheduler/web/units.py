@@ -14,7 +14,7 @@ from fastapi import Request
 
 from workers.targets import facts_texts
 from workers.wording import TempUnit as TextUnit
-from workers.wording import Texts
+from workers.wording import Texts, describe_margin
 
 __all__ = ["UNITS_COOKIE", "Units", "units_from"]
 
@@ -62,6 +62,15 @@ class Units:
                 str(body.get("message", "")),
             )
         return facts_texts(body, self.text_unit)  # type: ignore[arg-type]  # a stored FlagBody
+
+    def margin(self, body: Mapping[str, Any]) -> str:
+        """``texts(body).margin`` without the other texts (a report lists thousands of margins)."""
+        if not body.get("facts"):
+            return self.fmt_margin(body)  # stored before checks kept their facts: as texts() says it
+        value, unit, said = body.get("margin_value"), body.get("margin_unit"), body.get("margin")
+        if isinstance(value, int | float) and isinstance(unit, str) and isinstance(said, str):
+            return describe_margin(float(value), unit, said, self.text_unit)
+        return self.texts(body).margin
 
     def temp(self, temp_c: float | None) -> float | None:
         """A temperature (degC) in the display unit."""

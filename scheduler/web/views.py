@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -15,15 +15,20 @@ from models import BatchSpec, PartSpec, StepSpec
 from models.profiles import ProfileSpec
 from models.results import CheckBody, PartResult, TraceBody
 from models.tables import FlagStatus
-from scheduler.api.schemas import BatchPublic, ComparePart
+from scheduler.api.schemas import ComparePart, FlagPublic
+from scheduler.api.service import PartState
 from scheduler.web.units import Units
 from workers.targets import TEMPERATURE_KINDS
 
 __all__ = [
     "ChartSeries",
+    "CheckMark",
+    "FlagLine",
     "PartRow",
     "chart_payload",
+    "check_marks",
     "compare_row",
+    "flag_lines",
     "hold_steps",
     "overlay_payload",
     "part_rows",
@@ -68,7 +73,7 @@ class PartRow:
 
 
 def part_rows(
-    batch: BatchPublic, spec: BatchSpec, checks: Mapping[str, list[CheckBody]], units: Units
+    parts: Sequence[PartState], spec: BatchSpec, checks: Mapping[str, list[CheckBody]], units: Units
 ) -> list[PartRow]:
     """Every part in file order, with its job status and, once computed, each target's outcome."""
     specs = {p.id: p for p in spec.parts}
@@ -84,8 +89,75 @@ def part_rows(
             open_flags=sum(1 for f in part.flags if f.get("status") == FlagStatus.OPEN.value),
             error=part.error,
         )
-        for part in batch.parts
+        for part in parts
     ]
+
+
+@dataclass(frozen=True)
+class CheckMark:
+    """One target's outcome in a long table (the report): verdict, what it is, margin in the viewer's
+    unit; the margin alone is said, not the other texts."""
+
+    passed: bool
+    label: str
+    margin: str
+
+
+def check_marks(checks: list[CheckBody], units: Units) -> list[CheckMark]:
+    """A part's checks as the report's parts table prints them."""
+    return [
+        CheckMark(
+            bool(c["passed"]),
+            f"{c['step']} · {c['at']} · {c['target'].replace('_', ' ')}",
+            units.margin(c),
+        )
+        for c in checks
+    ]
+
+
+@dataclass(frozen=True)
+class FlagLine:
+    """A flag of the report's flags table: its texts in the viewer's unit and its dispositions."""
+
+    part: str
+    label: str
+    required: str
+    achieved: str
+    dispositions: list[str]
+
+
+def flag_lines(flags: list[FlagPublic], units: Units) -> list[FlagLine]:
+    """The report's flags table, texts said once per flag in the viewer's unit."""
+    lines = []
+    for f in flags:
+        said = units.texts(f.model_dump(include=_TEXT_FIELDS))
+        lines.append(
+            FlagLine(
+                f.part,
+                f"{f.step} · {f.at} · {f.target.replace('_', ' ')}",
+                said.required,
+                said.achieved,
+                [
+                    f"{d.decision.value} by {d.by} ({d.at.strftime('%Y-%m-%d %H:%M')} UTC): {d.comment}"
+                    for d in f.dispositions
+                ],
+            )
+        )
+    return lines
+
+
+_TEXT_FIELDS = {
+    "step",
+    "at",
+    "target",
+    "required",
+    "achieved",
+    "margin",
+    "margin_value",
+    "margin_unit",
+    "message",
+    "facts",
+}
 
 
 def _step_text(step: StepSpec, units: Units) -> dict[str, str]:

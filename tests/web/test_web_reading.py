@@ -15,6 +15,7 @@ from scheduler.web.units import Units
 from scheduler.web.views import chart_payload, trace_csv
 from workers.targets import Target, evaluate
 from workers.thermal import Trace
+from workers.wording import describe
 
 
 def _trace() -> Trace:
@@ -70,3 +71,46 @@ def test_the_underside_is_a_series_of_the_chart_and_a_column_of_the_csv() -> Non
     old_trace = {k: v for k, v in body["trace"].items() if k != "underside_c"}
     old = {**body, "trace": {**old_trace, "second_surface_c": [20.0, 80.0]}}
     assert trace_csv(cast(PartResult, old), Units()).splitlines()[0] == lines[0]
+
+
+def test_a_margin_alone_reads_as_the_margin_of_the_texts() -> None:
+    """The report says only each check's margin (``Units.margin``, from its number and unit); it must
+    read exactly as the margin of the four texts the other pages say, for every kind of target, passed
+    or missed, in degC and degF. Limits chosen around the trace of ``_trace`` (800 -> 500 -> 400 degC)."""
+    trace = _trace()
+    targets = [
+        Target("quench", 0, "hold_above", "core", 450.0, 200.0),  # held 450 s of 200 s needed
+        Target("quench", 0, "hold_above", "core", 450.0, 900.0),  # missed: a time margin below zero
+        Target("quench", 0, "hold_above", "core", 900.0, 60.0),  # never reached
+        Target("quench", 0, "stay_below", "surface", 750.0),
+        Target("quench", 0, "stay_below", "surface", 650.0),
+        Target("quench", 0, "fall_below", "core", 600.0, 400.0),  # fell in time: a time margin
+        Target("quench", 0, "fall_below", "core", 200.0, 300.0),  # never fell: a temperature margin
+        Target("quench", 0, "max_difference", "surface", 150.0),
+        Target("quench", 0, "max_difference", "surface", 50.0),
+        Target("quench", 0, "temper_parameter_min", "core", 10000.0),
+        Target("quench", 0, "temper_parameter_max", "core", 10000.0),
+    ]
+    kinds = set()
+    for target in targets:
+        check = dict(evaluate(target, trace).as_dict())
+        kinds.add((target.kind, check["margin_unit"]))
+        for units in (Units("C", "mm"), Units("F", "in")):
+            assert units.margin(check) == units.texts(check).margin, (target, units)
+    assert {unit for _, unit in kinds} == {"s", "K", ""}
+    # Phase targets, their texts said from facts as a quench step's checks store them (invented numbers).
+    phases = {"hv": 520.0, "hrc": 50.6, "martensite": 0.82, "bainite": 0.15, "ferrite_pearlite": 0.03}
+    phases |= {"austenite": 0.0, "rate_k_s": 35.0, "temp_c": 60.0, "ms_c": 330.0, "unsettled": 0.0}
+    for kind, limit, value, unit_name in (
+        ("hardness_min", 52.0, -1.4, "HRC"),
+        ("martensite_min", 0.9, -8.0, "%"),
+        ("hardness_min", 45.0, 0.0, "HRC"),
+    ):
+        facts = {"limit": limit, **phases} | ({"unsettled": 1.0} if limit == 45.0 else {})
+        said = describe(kind, "core", "quench", facts)
+        body: dict[str, Any] = {"target": kind, "at": "core", "step": "quench", "margin": said.margin}
+        body |= {"margin_value": value, "margin_unit": unit_name, "facts": facts}
+        for units in (Units("C", "mm"), Units("F", "in")):
+            assert units.margin(body) == units.texts(body).margin, (kind, units)
+    old = {"margin": "-5 K", "margin_value": -5.0, "margin_unit": "K"}  # stored before facts
+    assert Units("F", "mm").margin(old) == Units("F", "mm").texts(old).margin == "-9 °F"

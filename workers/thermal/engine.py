@@ -73,6 +73,10 @@ class _Record:
         self.out = {name: np.full((g.P, total), np.nan) for name in names}  # filled step by step
         for name in names:
             self.out[name][:, 0] = g.initial
+        # rates likewise; at time zero nothing has started, the part is uniform and still
+        self.rates = {name: np.full((g.P, total), np.nan) for name in names if name != "mean"}
+        for v in self.rates.values():
+            v[:, 0] = 0.0
         self.heat = np.zeros((g.P, total))
         self.bound = np.zeros((g.P, total))
         self.steps = np.zeros(g.P, dtype=np.int64)
@@ -92,13 +96,16 @@ class _Record:
         cols = slice(self.col, self.col + m)
         for name, v in self.out.items():
             v[:, cols] = r.values[name]
+        for name, v in self.rates.items():
+            v[:, cols] = r.rates[name]
         self.heat[:, cols] = r.heat + self.heat[:, self.col - 1 : self.col]
         self.bound[:, cols] = r.bound
         self.steps += r.steps
         self.col += m
 
     def check(self) -> None:
-        unset = [name for name, v in self.out.items() if np.isnan(v).any()]
+        every = self.out | {f"{name} rate": v for name, v in self.rates.items()}
+        unset = [name for name, v in every.items() if np.isnan(v).any()]
         if unset or self.col != self.heat.shape[1]:
             raise ArithmeticError(f"no method filled every reported time of {', '.join(unset) or 'heat'}")
 
@@ -166,7 +173,7 @@ def _traces(
     traces: dict[int, Trace] = {}
     for cohort, rec in zip(cohorts, records, strict=True):
         rec.check()
-        out = rec.out
+        out, rates = rec.out, rec.rates
         for j, i in enumerate(cohort.parts):
             traces[i] = Trace(
                 time_s=time_s,
@@ -179,6 +186,10 @@ def _traces(
                 heat_in_j_m3=rec.heat[j],
                 corner_c=out["corner"][j] if "corner" in out else None,
                 second_surface_c=out["second"][j] if "second" in out else None,
+                core_rate_k_s=rates["core"][j],
+                surface_rate_k_s=rates["surface"][j],
+                corner_rate_k_s=rates["corner"][j] if "corner" in rates else None,
+                second_surface_rate_k_s=rates["second"][j] if "second" in rates else None,
                 substeps=int(rec.steps[j]),
                 phases=_phase_trace(rec, j),
             )

@@ -320,16 +320,25 @@ class Group:
             )
         return names, np.stack(w, axis=1), np.stack(off, axis=1), np.stack(slopes, axis=1)
 
-    def evaluate(self, sub: Sub, dt: FloatArray) -> tuple[dict[str, FloatArray], FloatArray]:
-        """Read-outs (name -> (P, m)) and heat in per volume (P, m), ``dt`` after the step start."""
+    def evaluate(
+        self, sub: Sub, dt: FloatArray
+    ) -> tuple[dict[str, FloatArray], FloatArray, dict[str, FloatArray]]:
+        """Read-outs (name -> (P, m)), heat in per volume (P, m) and the read-outs' time derivatives
+        (name -> (P, m), K/s), ``dt`` after the step start.
+
+        Each mode's term A e^(-K t) - S t phi(K t) has the derivative -(K A + S) e^(-K t); the offset
+        line's is the ramp (dsA + dsB xi per second): the series' own rate, exact for the kept modes.
+        """
         names, W, off, G = sub.fn
         A = sub.A0.reshape(self.P, -1)
         K = sub.K.reshape(self.P, -1)
         S = sub.S.reshape(self.P, -1)
         VA, VS = W * A[:, None, :], W * S[:, None, :]
+        VR = -W * (K * A + S)[:, None, :]
         GA, GS = G * A[:, None, :], G * S[:, None, :]
         m = dt.size
         val_parts: list[FloatArray] = []
+        rate_parts: list[FloatArray] = []
         heat_parts: list[FloatArray] = []
         step = max(1, _CHUNK // max(1, self.P * K.shape[1]))
         for c0 in range(0, m, step):
@@ -340,6 +349,7 @@ class Group:
             val_parts.append(
                 np.einsum("pfM,ptM->pft", VA, E) - np.einsum("pfM,ptM->pft", VS, ph * t[None, :, None])
             )
+            rate_parts.append(np.einsum("pfM,ptM->pft", VR, E))
             integ = np.einsum("pgM,ptM->pgt", GA, ph * t[None, :, None]) - np.einsum(
                 "pgM,ptM->pgt", GS, tensor.psi(x) * (t * t)[None, :, None]
             )
@@ -354,8 +364,14 @@ class Group:
             + (sub.dsA[:, None, None] + sub.dsB[:, None, None] * off[:, :, None]) * dt[None, None, :]
         )
         vals = np.concatenate(val_parts, axis=2) + s_line
+        ramp = sub.dsA[:, None] + sub.dsB[:, None] * off  # (P, F): the offset line's rate
+        rates = np.concatenate(rate_parts, axis=2) + ramp[:, :, None]
         heat = np.concatenate(heat_parts, axis=1)
-        return {n: vals[:, i, :] for i, n in enumerate(names)}, heat
+        return (
+            {n: vals[:, i, :] for i, n in enumerate(names)},
+            heat,
+            {n: rates[:, i, :] for i, n in enumerate(names)},
+        )
 
     def advance(self, sub: Sub, dt: float) -> State:
         x = sub.K * dt

@@ -130,6 +130,7 @@ class LineMarch:
             out.append(
                 StepResult(
                     values={name: v[rows] for name, v in res.values.items() if name in _reported(g)},
+                    rates={name: v[rows] for name, v in res.rates.items() if name in _reported(g)},
                     heat=res.heat[rows],
                     bound=res.error[rows],
                     steps=res.steps[rows],

@@ -213,6 +213,7 @@ class MarchResult:
     error: FloatArray  # (P, m) error estimate, K
     end: FloatArray  # (N,) flat node temperatures at the step end
     steps: NDArray[np.int64]  # (P,) time steps taken by each part
+    rates: dict[str, FloatArray]  # name -> (P, m) dT/dt of the reported points (not mean), K/s
     phases: NodePhases | None = None  # (N nodes) the phases at the step end, when marched with them
 
 
@@ -251,7 +252,9 @@ def march(
     tabs = nodes.tables
     points = _points(nodes)
 
-    def readout(T: FloatArray, heat_f: FloatArray, heat_c: FloatArray, err: FloatArray) -> FloatArray:
+    def readout(
+        T: FloatArray, heat_f: FloatArray, heat_c: FloatArray, err: FloatArray, slope: FloatArray
+    ) -> FloatArray:
         rows = []
         space = np.zeros(P)
         for idx in points.values():
@@ -260,9 +263,10 @@ def march(
             space = np.maximum(space, np.abs(f - c) / 3.0)
         mf, mc = nodes.mean(T)
         rows += [(4.0 * mf - mc) / 3.0, (4.0 * heat_f - heat_c) / 3.0, err + space]
+        rows += [(4.0 * slope[idx[0]] - slope[idx[1]]) / 3.0 for idx in points.values()]
         return np.stack(rows)  # (names, P)
 
-    names = [*points, "mean", "heat", "error"]
+    names = [*points, "mean", "heat", "error", *(f"{p}_rate" for p in points)]
     out = np.full((len(names), P, m), np.nan)  # every reported time is written by _emit
     hmin = 1e-9 * end_t
     taken = np.ones(P, dtype=np.int64)
@@ -314,8 +318,8 @@ def march(
     T_prev, H_prev = T0 + (T - T_unsettled), H0 + released
     dTdt = (H - H_prev) / (h[part] * C)  # the step's own balance gives dT/dt at its end
 
-    r_prev = readout(T0, np.zeros(P), np.zeros(P), np.zeros(P))
-    r_now = readout(T, heat_f, heat_c, err_sum)
+    r_prev = readout(T0, np.zeros(P), np.zeros(P), np.zeros(P), rate(nodes, laws, solver, T0, np.zeros(P)))
+    r_now = readout(T, heat_f, heat_c, err_sum, rate(nodes, laws, solver, T, t))
     t_before = np.zeros(P)  # time of r_prev
     ids = np.arange(P)  # original number of each part still in the arrays
     node_ids = np.arange(nodes.N)
@@ -397,7 +401,7 @@ def march(
         err_sum = np.where(good, err_sum + e, err_sum)
         taken[ids] += good
         t_new = np.where(hh >= left, end_t, t + hh)
-        r_new = readout(T, heat_f, heat_c, err_sum)
+        r_new = readout(T, heat_f, heat_c, err_sum, dTdt)  # a BDF2 step's dT/dt is its right-hand side
         nxt = _emit(out, offsets, nxt, good, t, t_new, r_now, r_new, ids, (t_before, r_prev))
         gsel = good[None, :]
         r_prev, r_now = np.where(gsel, r_now, r_prev), np.where(gsel, r_new, r_now)
@@ -417,7 +421,18 @@ def march(
     vals = {name: out[i] for i, name in enumerate(names)}
     heat_out = vals.pop("heat")
     err_out = vals.pop("error")
-    return MarchResult(vals, heat_out, err_out, T_end, taken, record)
+    rates = {p: vals.pop(f"{p}_rate") for p in _points(nodes)}
+    return MarchResult(vals, heat_out, err_out, T_end, taken, rates, record)
+
+
+def rate(nodes: Nodes, laws: Laws, solver: Solver, T: FloatArray, t_part: FloatArray) -> FloatArray:
+    """dT/dt of every node at temperatures ``T`` and step times ``t_part`` (per part): the march's
+    right-hand side, the heat flowing into each node over its heat capacity."""
+    _, C, Kc = nodes.tables.lookup(nodes.base, T, 3)
+    fn = nodes.face_node
+    q, _ = laws.flux(nodes, T[fn], t_part)
+    net = solver.net(nodes, Kc) + np.bincount(fn, weights=q * nodes.face_area, minlength=nodes.N)
+    return np.asarray(net / (nodes.vol * C), dtype=float)
 
 
 def _warm(tabs: Tables, base: NDArray[np.intp], T: FloatArray, H: FloatArray) -> list[FloatArray]:

@@ -11,6 +11,7 @@ from workers.thermal.group import State
 from workers.thermal.spec import FloatArray
 
 POINTS = ("core", "surface", "mean", "corner", "second")
+RATE_POINTS = ("core", "surface", "corner", "second")  # the points whose rate of change is reported
 
 
 @dataclass(frozen=True)
@@ -19,6 +20,9 @@ class StepResult:
 
     ``values``: point -> (P, m) degC: ``core``, ``surface`` and ``mean`` always, ``corner`` for blocks
     and short cylinders, ``second`` (the lower face) for two-face plates.
+    ``rates``: point -> (P, m) K/s, the time derivative of the solution at the same times, for each point
+    of ``values`` but ``mean``: from the method itself (the series differentiated, the march's right-hand
+    side), so that a crossing can be located between reported times on a cubic (``workers.targets``).
     ``heat``: (P, m) heat in through the faces per unit volume since the step began, J/m^3.
     ``bound``: (P, m) the error bound at each reported time, K.
     ``steps``: (P,) time steps taken (1 for a series step).
@@ -30,6 +34,7 @@ class StepResult:
     """
 
     values: dict[str, FloatArray]
+    rates: dict[str, FloatArray]
     heat: FloatArray
     bound: FloatArray
     steps: NDArray[np.int64]

@@ -11,7 +11,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from workers.thermal.group import Group, State
-from workers.thermal.result import POINTS, StepResult
+from workers.thermal.result import POINTS, RATE_POINTS, StepResult
 from workers.thermal.spec import FloatArray, Step
 
 
@@ -43,9 +43,10 @@ def run(g: Group, state: State, steps: Sequence[Step], k: int, offsets: FloatArr
     rate = ramp_rate(st)
     g.choose_modes(float(offsets[0]), float(reach.max()), rate, alpha)
     sub = g.prepare(state, co, specs)
-    vals, heat = g.evaluate(sub, offsets)
+    vals, heat, rates = g.evaluate(sub, offsets)
     return StepResult(
         values={name: v for name, v in vals.items() if name in POINTS},
+        rates={name: v for name, v in rates.items() if name in RATE_POINTS},
         heat=heat,
         bound=g.bound(offsets, reach, rate, alpha),
         steps=np.ones(g.P, dtype=np.int64),

@@ -34,8 +34,9 @@ class SolidMarch(Protocol):
 
     def step(self, st: Step, offsets: FloatArray) -> StepResult:
         """The next schedule step, reported at ``offsets`` (s after its start, the last its end):
-        ``values`` core, surface, corner and mean, ``heat``, ``bound`` and ``steps`` per part, in the
-        order of the parts given to the factory; ``end`` None."""
+        ``values`` core, surface, corner and mean, ``rates`` (dT/dt) of core, surface and corner,
+        ``heat``, ``bound`` and ``steps`` per part, in the order of the parts given to the factory;
+        ``end`` None."""
         ...
 
 
@@ -75,6 +76,7 @@ class TensorMarch:
         names = ("core", "surface", "corner", "mean")
         return StepResult(
             values={n: np.concatenate([r.values[n] for r in results]) for n in names},
+            rates={n: np.concatenate([r.rates[n] for r in results]) for n in names if n != "mean"},
             heat=np.concatenate([r.heat for r in results]),
             bound=np.concatenate([r.error for r in results]),
             steps=np.concatenate([r.steps for r in results]),

@@ -142,6 +142,11 @@ class Trace:
     ``mean_c`` is the volume mean temperature and ``heat_in_j_m3`` the heat that has entered through the
     faces per unit volume since time zero (for energy balances). ``corner_c`` is set for blocks and
     short cylinders, ``second_surface_c`` for plates in a schedule with a second face.
+    ``core_rate_k_s`` and the other ``*_rate_k_s`` are the time derivatives (K/s) of the solution at
+    each sample, from the method that computed it (exact for a series step, the right-hand side of the
+    march): with them a crossing between samples is found on a cubic (``workers.targets``). At a step
+    boundary the sample's rate is the earlier step's (a face law may jump there). None: not known (a
+    trace built by hand), and crossings are taken as linear between samples.
     """
 
     time_s: FloatArray
@@ -154,6 +159,10 @@ class Trace:
     heat_in_j_m3: FloatArray
     corner_c: FloatArray | None = None
     second_surface_c: FloatArray | None = None
+    core_rate_k_s: FloatArray | None = None
+    surface_rate_k_s: FloatArray | None = None
+    corner_rate_k_s: FloatArray | None = None
+    second_surface_rate_k_s: FloatArray | None = None
     substeps: int = 0  # series steps plus march time steps taken for this part
     phases: PhaseTrace | None = None  # a part whose phases were followed
 

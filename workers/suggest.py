@@ -42,6 +42,7 @@ from workers.targets import (
     first_below,
     first_reaching,
     hold_done_at,
+    location_rate,
     step_window,
     tempering_parameters,
 )
@@ -177,10 +178,12 @@ def _bounds(
             continue
         kind = target.kind
         temp = _point(trace, target.point)[idx]
+        rates = location_rate(trace, target.point)
+        rate = None if rates is None else rates[idx]
         what = f"{target.point} {kind.value}"
         if kind is TargetKind.HOLD_ABOVE:
             limit, need = target.limit_c or 0.0, target.for_s or 0.0
-            done = hold_done_at(t, temp, limit, need)
+            done = hold_done_at(t, temp, limit, need, rate)
             if done is None and limit > hottest_c and warmest_at_end < limit:
                 # with no heat made inside, a part below the limit in a furnace below it never gets there
                 reason = (
@@ -191,10 +194,10 @@ def _bounds(
                 continue
             found.append(_Bound(part.id, what, lower=done, beyond=done is None))
         elif kind is TargetKind.STAY_BELOW:
-            found.append(_Bound(part.id, what, upper=first_above(t, temp, target.limit_c or 0.0)))
+            found.append(_Bound(part.id, what, upper=first_above(t, temp, target.limit_c or 0.0, rate)))
         elif kind is TargetKind.FALL_BELOW:
             within = target.within_s or 0.0
-            crossing = first_below(t, temp, target.limit_c or 0.0)
+            crossing = first_below(t, temp, target.limit_c or 0.0, rate)
             if crossing is None and within > horizon_s:
                 found.append(_Bound(part.id, what, beyond=True))
             elif crossing is None or crossing > within:

@@ -7,7 +7,13 @@ returns a ``Check``: the numbers it found (``facts``) and, from them, texts for 
 
 Conventions (each is a choice a reviewer may want to know):
 - A step's window runs from its start (the last sample of the step before, or time zero) to its end.
-- Between samples temperatures are linear, so crossings are interpolated linearly.
+- A crossing between samples is located on the solution itself: the cubic through the two samples
+  with the solution's time derivative at each (``Trace.*_rate_k_s``, from the method that computed the
+  trace), solved for its first (or, where a run starts, last) root in the interval; the samples say
+  which intervals hold a crossing. In a step's first interval the left sample may belong to the step
+  before (a face law can jump there), so the quadratic with the right sample's rate is taken. A trace
+  without rates is linear between samples. Its error is the trace's error bound over the rate there
+  (``crossing_error``).
 - hold_above counts the longest continuous time at or above the temperature, starting when the location
   reaches it, not when the furnace does (common practice: soak counts from the part).
 - hardness_min and martensite_min read the phases the engine followed (a part with a composition) at
@@ -21,7 +27,9 @@ Conventions (each is a choice a reviewer may want to know):
 
 from __future__ import annotations
 
+import itertools
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Literal
 
@@ -58,6 +66,8 @@ __all__ = [
     "TEMPERATURE_KINDS",
     "Check",
     "Target",
+    "crossing_error",
+    "crossing_time",
     "evaluate",
     "facts_texts",
     "first_above",
@@ -67,6 +77,7 @@ __all__ = [
     "format_temperature",
     "hold_done_at",
     "hold_time",
+    "location_rate",
     "longest_run_above",
     "max_difference",
     "miss_spans",
@@ -92,96 +103,210 @@ def step_window(trace: Trace, step_index: int) -> tuple[FloatArray, NDArray[np.i
     return t, idx
 
 
-def longest_run_above(t: FloatArray, temp: FloatArray, limit_c: float) -> tuple[float, float | None]:
-    """Longest continuous time at or above ``limit_c`` and when that run started (None: never reached).
+def _slopes(t: FloatArray, temp: FloatArray, rate: FloatArray | None) -> tuple[FloatArray, FloatArray]:
+    """The slope (K/s) each interval's cubic takes at its left and right sample.
 
-    Linear between samples: a crossing inside an interval starts or ends a run at the interpolated time.
+    With the solution's rates (``Trace.*_rate_k_s``) these are the rates themselves, but for the
+    window's first interval, whose left sample may belong to the step before (a face law can jump at
+    the boundary): there the left slope is chosen so that the cubic is the quadratic through both
+    samples with the right rate. Without rates both are the secant, and the cubic is the straight line.
     """
-    best, best_start = 0.0, None
-    run, run_start = 0.0, None
-    for i in range(len(t) - 1):
-        t0, t1, a, b = t[i], t[i + 1], temp[i], temp[i + 1]
-        up0, up1 = a >= limit_c, b >= limit_c
-        cross = t0 + (limit_c - a) / (b - a) * (t1 - t0) if up0 != up1 else t0
-        if up0 and up1:
-            if run_start is None:
-                run_start = t0
-            run += t1 - t0
-        elif up0:  # drops below inside the interval: the run ends at the crossing
-            if run_start is None:
-                run_start = t0
-            run += cross - t0
-        elif up1:  # reaches the limit inside the interval: a new run starts at the crossing
-            run, run_start = t1 - cross, cross
-        if run_start is not None and run >= best:
-            best, best_start = run, run_start
-        if not up1:
-            run, run_start = 0.0, None
-    if best_start is None and len(t) and temp[0] >= limit_c:
-        best_start = float(t[0])
-    return float(best), None if best_start is None else float(best_start)
+    dt = np.diff(t)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        secant = np.where(dt > 0.0, np.diff(temp) / np.where(dt > 0.0, dt, 1.0), 0.0)
+    if rate is None:
+        return secant, secant.copy()
+    left = np.array(rate[:-1], dtype=float)
+    right = np.array(rate[1:], dtype=float)
+    if left.size:
+        left[0] = 2.0 * secant[0] - right[0]
+    return left, right
 
 
-def hold_time(t: FloatArray, temp: FloatArray, limit_c: float) -> float:
+def _root(c0: float, c1: float, c2: float, c3: float, first: bool) -> float:
+    """The first (or last) root in [0, 1] of c0 + c1 s + c2 s^2 + c3 s^3, whose ends differ in sign
+    (or one is zero): the cubic is cut at its turning points into monotone pieces, and the first (last)
+    piece that holds a root is solved by Newton's method kept inside the piece by bisection."""
+
+    def f(s: float) -> float:
+        return ((c3 * s + c2) * s + c1) * s + c0
+
+    knots = [0.0, 1.0]
+    qa, qb, qc = 3.0 * c3, 2.0 * c2, c1  # the derivative
+    if qa != 0.0:
+        disc = qb * qb - 4.0 * qa * qc
+        if disc > 0.0:
+            r = math.sqrt(disc)
+            knots += [(-qb - r) / (2.0 * qa), (-qb + r) / (2.0 * qa)]
+    elif qb != 0.0:
+        knots.append(-qc / qb)
+    cuts = sorted(k for k in knots if 0.0 <= k <= 1.0)
+    pieces = list(itertools.pairwise(cuts))
+    for lo, hi in pieces if first else reversed(pieces):
+        flo, fhi = f(lo), f(hi)
+        if first and flo == 0.0:
+            return lo
+        if fhi == 0.0:
+            return hi
+        if not first and flo == 0.0:
+            return lo
+        if (flo < 0.0) != (fhi < 0.0):
+            return _solve_piece(f, c1, c2, c3, lo, hi, flo)
+    return 0.0 if abs(f(0.0)) <= abs(f(1.0)) else 1.0  # not reached: the ends differ in sign
+
+
+def _solve_piece(
+    f: Callable[[float], float], c1: float, c2: float, c3: float, lo: float, hi: float, flo: float
+) -> float:
+    """The root of a monotone piece of the cubic between ``lo`` and ``hi`` (signs differ at its ends)."""
+    s = 0.5 * (lo + hi)
+    for _ in range(60):
+        fs = f(s)
+        if fs == 0.0:
+            return s
+        if (fs < 0.0) == (flo < 0.0):
+            lo = s
+        else:
+            hi = s
+        d = (3.0 * c3 * s + 2.0 * c2) * s + c1
+        nxt = s - fs / d if d != 0.0 else lo - 1.0
+        if not lo < nxt < hi:
+            nxt = 0.5 * (lo + hi)  # Newton left the bracket: bisect
+        if abs(nxt - s) <= 1e-13:
+            return nxt
+        s = nxt
+    return s
+
+
+def crossing_time(
+    t0: float, t1: float, a: float, b: float, left: float, right: float, limit: float, first: bool = True
+) -> float:
+    """When the cubic through (t0, a) and (t1, b) with slopes ``left`` and ``right`` (K/s) there meets
+    ``limit``, with ``a`` and ``b`` on either side of it (or on it): the first such time in the
+    interval, or the last one (``first=False``: where a run that goes on past t1 starts)."""
+    dt = t1 - t0
+    if dt <= 0.0:
+        return t0
+    da, db = dt * left, dt * right
+    c2 = 3.0 * (b - a) - 2.0 * da - db
+    c3 = 2.0 * (a - b) + da + db
+    return t0 + dt * _root(a - limit, da, c2, c3, first)
+
+
+def _cross(
+    t: FloatArray, v: FloatArray, left: FloatArray, right: FloatArray, i: int, limit: float, first: bool
+) -> float:
+    """``crossing_time`` in the interval from sample ``i`` to ``i + 1``."""
+    return crossing_time(
+        float(t[i]),
+        float(t[i + 1]),
+        float(v[i]),
+        float(v[i + 1]),
+        float(left[i]),
+        float(right[i]),
+        limit,
+        first,
+    )
+
+
+def _runs_above(
+    t: FloatArray, temp: FloatArray, limit_c: float, rate: FloatArray | None
+) -> list[tuple[float, float]]:
+    """Every continuous run at or above ``limit_c`` as (start, end) times, in order.
+
+    The samples say which intervals a crossing lies in; inside one, the crossing is on the cubic of
+    ``_slopes`` (the solution's own, with rates).
+    """
+    up = np.asarray(temp >= limit_c)
+    if not up.any():
+        return []
+    edges = np.diff(np.concatenate([[False], up, [False]]).astype(np.int8))
+    firsts, lasts = np.nonzero(edges == 1)[0], np.nonzero(edges == -1)[0] - 1
+    left, right = _slopes(t, temp, rate)
+    runs = []
+    for i, j in zip(firsts.tolist(), lasts.tolist(), strict=True):
+        start = float(t[0]) if i == 0 else _cross(t, temp, left, right, i - 1, limit_c, first=False)
+        end = float(t[-1]) if j == len(t) - 1 else _cross(t, temp, left, right, j, limit_c, first=True)
+        runs.append((start, end))
+    return runs
+
+
+def longest_run_above(
+    t: FloatArray, temp: FloatArray, limit_c: float, rate: FloatArray | None = None
+) -> tuple[float, float | None]:
+    """Longest continuous time at or above ``limit_c`` and when that run started (None: never reached);
+    of equally long runs, the last.
+
+    A crossing inside an interval starts or ends a run at the time the solution crosses (``rate``: its
+    time derivative at the samples; without it, linear between samples).
+    """
+    runs = _runs_above(t, temp, limit_c, rate)
+    if not runs:
+        return 0.0, None
+    lengths = [end - start for start, end in runs]
+    best = max(lengths)
+    k = len(lengths) - 1 - lengths[::-1].index(best)
+    return float(best), float(runs[k][0])
+
+
+def hold_time(t: FloatArray, temp: FloatArray, limit_c: float, rate: FloatArray | None = None) -> float:
     """Longest continuous time (s) at or above ``limit_c``."""
-    return longest_run_above(t, temp, limit_c)[0]
+    return longest_run_above(t, temp, limit_c, rate)[0]
 
 
 def peak(temp: FloatArray) -> float:
     return float(np.max(temp))
 
 
-def first_below(t: FloatArray, temp: FloatArray, limit_c: float) -> float | None:
-    """First time the location is below ``limit_c`` (linear crossing); None if it never is."""
-    below = np.nonzero(temp < limit_c)[0]
-    if below.size == 0:
+def _first(
+    t: FloatArray, values: FloatArray, hit: NDArray[np.bool_], limit: float, rate: FloatArray | None
+) -> float | None:
+    """The time of the first sample where ``hit`` holds, or the crossing into it inside the interval
+    before (first root of the interval's cubic); None when no sample hits."""
+    found = np.nonzero(hit)[0]
+    if found.size == 0:
         return None
-    i = int(below[0])
+    i = int(found[0])
     if i == 0:
         return float(t[0])
-    a, b = temp[i - 1], temp[i]
-    return float(t[i - 1] + (limit_c - a) / (b - a) * (t[i] - t[i - 1]))
+    left, right = _slopes(t[: i + 1], values[: i + 1], None if rate is None else rate[: i + 1])
+    return _cross(t, values, left, right, i - 1, limit, first=True)
 
 
-def first_above(t: FloatArray, values: FloatArray, limit: float) -> float | None:
-    """First time ``values`` exceed ``limit`` (linear crossing); None if they never do."""
-    return first_below(t, -np.asarray(values, dtype=float), -limit)
+def first_below(
+    t: FloatArray, temp: FloatArray, limit_c: float, rate: FloatArray | None = None
+) -> float | None:
+    """First time the location is below ``limit_c``; None if it never is. Between samples the crossing
+    is on the solution (``rate``: its time derivative at the samples; without it, linear)."""
+    return _first(t, temp, np.asarray(temp < limit_c), limit_c, rate)
 
 
-def first_reaching(t: FloatArray, values: FloatArray, limit: float) -> float | None:
-    """First time ``values`` reach ``limit`` or more (linear crossing); None if they never do."""
-    up = np.nonzero(np.asarray(values) >= limit)[0]
-    if up.size == 0:
-        return None
-    i = int(up[0])
-    if i == 0:
-        return float(t[0])
-    a, b = values[i - 1], values[i]
-    return float(t[i - 1] + (limit - a) / (b - a) * (t[i] - t[i - 1]))
+def first_above(
+    t: FloatArray, values: FloatArray, limit: float, rate: FloatArray | None = None
+) -> float | None:
+    """First time ``values`` exceed ``limit``; None if they never do (crossings as ``first_below``)."""
+    return _first(t, values, np.asarray(values > limit), limit, rate)
 
 
-def hold_done_at(t: FloatArray, temp: FloatArray, limit_c: float, need_s: float) -> float | None:
+def first_reaching(
+    t: FloatArray, values: FloatArray, limit: float, rate: FloatArray | None = None
+) -> float | None:
+    """First time ``values`` reach ``limit`` or more; None if they never do (crossings as
+    ``first_below``)."""
+    return _first(t, values, np.asarray(values >= limit), limit, rate)
+
+
+def hold_done_at(
+    t: FloatArray, temp: FloatArray, limit_c: float, need_s: float, rate: FloatArray | None = None
+) -> float | None:
     """Earliest time by which the location has been at or above ``limit_c`` for ``need_s`` without a
     break (None: not within ``t``): a step at least this long passes the hold.
 
-    Same crossings as ``longest_run_above``: linear between samples.
+    Same crossings as ``longest_run_above``.
     """
-    run_start: float | None = None
-    for i in range(len(t) - 1):
-        t0, t1, a, b = t[i], t[i + 1], temp[i], temp[i + 1]
-        up0, up1 = a >= limit_c, b >= limit_c
-        cross = t0 + (limit_c - a) / (b - a) * (t1 - t0) if up0 != up1 else t0
-        if up0 and run_start is None:
-            run_start = t0
-        elif up1 and not up0:
-            run_start = cross
-        end = t1 if up1 else cross
-        if run_start is not None and end - run_start >= need_s:
-            return float(run_start + need_s)
-        if not up1:
-            run_start = None
-    if len(t) and run_start is None and need_s <= 0.0 and temp[-1] >= limit_c:
-        return float(t[-1])
+    for start, end in _runs_above(t, temp, limit_c, rate):
+        if end - start >= need_s:
+            return float(start + need_s)
     return None
 
 
@@ -318,6 +443,29 @@ def _location(trace: Trace, at: Point) -> FloatArray:
     return trace.corner_c
 
 
+def location_rate(trace: Trace, at: Point) -> FloatArray | None:
+    """The time derivative (K/s) of a location's temperature at the samples, None when not known."""
+    if at == "core":
+        return trace.core_rate_k_s
+    if at == "surface":
+        return trace.surface_rate_k_s
+    if at == "underside":
+        return trace.surface_rate_k_s if trace.second_surface_c is None else trace.second_surface_rate_k_s
+    return trace.corner_rate_k_s
+
+
+def crossing_error(trace: Trace, at: Point, time_s: float) -> float:
+    """The stated error (s) of a crossing of ``at`` at ``time_s`` (from time zero): the trace's error
+    bound there over the location's rate there, both linear between samples (inf where it is still;
+    0 where the bound is). The crossing itself is on the cubic, whose own error is far below."""
+    rate = location_rate(trace, at)
+    bound = float(np.interp(time_s, trace.time_s, trace.bound_k))
+    if rate is None or bound == 0.0:
+        return bound and math.inf
+    speed = abs(float(np.interp(time_s, trace.time_s, rate)))
+    return bound / speed if speed > 0.0 else math.inf
+
+
 def _make(target: Target, passed: bool, margin: tuple[float, str], facts: Facts) -> Check:
     texts = describe(target.kind, target.at, target.step, facts)
     value, unit = margin
@@ -337,9 +485,9 @@ def _make(target: Target, passed: bool, margin: tuple[float, str], facts: Facts)
     )
 
 
-def _hold(target: Target, t: FloatArray, temp: FloatArray) -> Check:
+def _hold(target: Target, t: FloatArray, temp: FloatArray, rate: FloatArray | None) -> Check:
     need = target.time_s or 0.0
-    held, start = longest_run_above(t, temp, target.limit)
+    held, start = longest_run_above(t, temp, target.limit, rate)
     facts = {"limit_c": target.limit, "need_s": need, "held_s": held, "start_s": start, "peak_c": peak(temp)}
     return _make(target, held >= need, (held - need, "s"), facts)
 
@@ -351,9 +499,9 @@ def _stay(target: Target, t: FloatArray, temp: FloatArray) -> Check:
     return _make(target, top <= target.limit, (target.limit - top, "K"), facts)
 
 
-def _fall(target: Target, t: FloatArray, temp: FloatArray) -> Check:
+def _fall(target: Target, t: FloatArray, temp: FloatArray, rate: FloatArray | None) -> Check:
     within, step_s = target.time_s or 0.0, float(t[-1])
-    when = first_below(t, temp, target.limit)
+    when = first_below(t, temp, target.limit, rate)
     facts: dict[str, float | None] = {
         "limit_c": target.limit,
         "within_s": within,
@@ -439,12 +587,14 @@ def _check(
     if target.kind == "max_difference":
         return _difference(target, t, trace.core_c[idx], _location(trace, target.at)[idx])
     temp = _location(trace, target.at)[idx]
+    rates = location_rate(trace, target.at)
+    rate = None if rates is None else rates[idx]
     if target.kind == "hold_above":
-        return _hold(target, t, temp)
+        return _hold(target, t, temp, rate)
     if target.kind == "stay_below":
         return _stay(target, t, temp)
     if target.kind == "fall_below":
-        return _fall(target, t, temp)
+        return _fall(target, t, temp, rate)
     return _temper(target, t, temp)
 
 
